@@ -1,0 +1,38 @@
+"""Option literals, physical constants and documented limits, in one place."""
+
+from typing import Literal
+
+# SI Brochure (9th ed.): T/K = t/°C + 273.15.
+KELVIN_OFFSET = 273.15
+
+Kind = Literal["ntc_beta", "ntc_sh", "rtd", "ldr", "pot"]
+KINDS: tuple[str, ...] = ("ntc_beta", "ntc_sh", "rtd", "ldr", "pot")
+
+Objective = Literal["swing", "linearity", "sensitivity"]
+OBJECTIVES: tuple[str, ...] = ("swing", "linearity", "sensitivity")
+
+SeriesName = Literal["E3", "E6", "E12", "E24", "E48", "E96", "E192", "exact"]
+SensorAt = Literal["top", "bottom"]
+Taper = Literal["linear", "log"]
+Wiring = Literal["divider", "rheostat"]
+
+# Points on the stimulus axis used by every objective (contract).
+OBJECTIVE_POINTS = 401
+# Default grid for evaluate-style plots and the budget (contract).
+BUDGET_POINTS = 101
+
+# Bounds on request sizes; the edges enforce them, the core trusts them.
+MAX_STIMULUS_POINTS = 10_001
+MAX_BODY_BYTES = 1_000_000
+
+# Solver search: log-spaced grid density and zoom refinement.
+SOLVER_GRID_PER_DECADE = 24
+SOLVER_ZOOM_POINTS = 21
+SOLVER_ZOOM_ROUNDS = 8
+SOLVER_CANDIDATES = 5
+
+DEFAULT_MIN_OHM = 1.0
+DEFAULT_MAX_OHM = 1e7
+
+# Physical sanity bounds for temperatures handed to the models.
+MIN_TEMPERATURE_C = -KELVIN_OFFSET

@@ -1,0 +1,101 @@
+"""The sensor model family: only the physics is abstract.
+
+Every kind maps a stimulus (°C, lux or wiper travel) to the resistance of the
+two-terminal element and back, and gives dR/d(axis) analytically. The
+stimulus *axis* is where grids are spaced and slopes taken: °C, log10(lux),
+travel. Everything else (grids, derived curves) is built once here.
+
+Shapes: ``stimulus`` is any array shape; results have the same shape.
+"""
+
+from __future__ import annotations
+
+import math
+from abc import ABC, abstractmethod
+from dataclasses import asdict, dataclass, fields
+from typing import Any, ClassVar
+
+import numpy as np
+
+from app.errors import InputError
+
+
+def as_array(values: Any) -> np.ndarray:
+    """Cast once to float64; models never see lists."""
+    return np.asarray(values, dtype=float)
+
+
+def check_positive(field: str, value: Any) -> float:
+    value = check_finite(field, value)
+    if value <= 0:
+        raise InputError(field, f"must be positive, got {value:g}")
+    return value
+
+
+def check_finite(field: str, value: Any) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(field, f"must be a number, got {value!r}")
+    value = float(value)
+    if not math.isfinite(value):
+        raise InputError(field, f"must be finite, got {value}")
+    return value
+
+
+@dataclass(frozen=True)
+class Sensor(ABC):
+    """Base of every sensor kind. Subclasses are frozen dataclasses."""
+
+    kind: ClassVar[str]
+    quantity: ClassVar[str]          # "temperature" | "illuminance" | "position"
+    stimulus_unit: ClassVar[str]     # "°C", "lx", "travel"
+    axis_unit: ClassVar[str]         # "°C", "decade", "travel"
+    axis_title: ClassVar[str]        # plot axis title with its unit
+    # Physical stimulus limits: values outside are refused, not extrapolated.
+    stimulus_min: ClassVar[float]
+    stimulus_max: ClassVar[float]
+
+    @abstractmethod
+    def resistance(self, stimulus: np.ndarray) -> np.ndarray:
+        """R(stimulus) in Ω of the two-terminal element."""
+
+    @abstractmethod
+    def stimulus_of(self, ohm: np.ndarray) -> np.ndarray:
+        """Inverse of :meth:`resistance` (NaN where no stimulus gives ``ohm``)."""
+
+    @abstractmethod
+    def dr_daxis(self, stimulus: np.ndarray) -> np.ndarray:
+        """dR/d(axis) in Ω per axis unit, analytic."""
+
+    # Axis mapping: identity except for light, judged on log10(lux).
+    def to_axis(self, stimulus: np.ndarray) -> np.ndarray:
+        return as_array(stimulus)
+
+    def from_axis(self, axis: np.ndarray) -> np.ndarray:
+        return as_array(axis)
+
+    def grid(self, lo: float, hi: float, points: int) -> np.ndarray:
+        """``points`` stimulus values evenly spaced on the axis, ends included."""
+        axis = np.linspace(self.to_axis(lo), self.to_axis(hi), points)
+        stimulus = self.from_axis(axis)
+        stimulus[0], stimulus[-1] = lo, hi
+        return stimulus
+
+    def check_stimulus(self, stimulus: np.ndarray, field: str = "stimulus") -> np.ndarray:
+        s = as_array(stimulus)
+        if not np.all(np.isfinite(s)):
+            raise InputError(field, "every value must be a finite number")
+        if np.any(s < self.stimulus_min) or np.any(s > self.stimulus_max):
+            raise InputError(
+                field,
+                f"values must lie within {self.stimulus_min:g} .. {self.stimulus_max:g}"
+                f" {self.stimulus_unit} for a {self.kind} sensor",
+            )
+        return s
+
+    @property
+    def nominal_stimulus(self) -> float:
+        """Where the part's resistance tolerance is specified."""
+        return 25.0
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind, **{f.name: getattr(self, f.name) for f in fields(self)}}

@@ -1,0 +1,206 @@
+"""Request and response models of the HTTP API (and of the CLI's input files).
+
+Sensor models are generated from the core's dataclass fields, so a kind's
+parameters are declared once (in ``app/models``). Resistances accept numbers
+or text such as ``4k7``; the core does the physics checks.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Any, Literal, Optional, Union
+
+from pydantic import ValidationError, BaseModel, BeforeValidator, ConfigDict, Discriminator, Field, Tag, WithJsonSchema, create_model
+
+from app import constants as K
+from app.errors import InputError
+from app.models import SENSOR_CLASSES, field_spec
+from app.units import parse_resistance
+
+
+def problems_from(exc: ValidationError) -> list[dict[str, str]]:
+    """Pydantic's errors as [{field, message}], field a dotted path of the request."""
+    out = []
+    for err in exc.errors():
+        message = str(err.get("msg", "invalid value"))
+        inner = (err.get("ctx") or {}).get("error")
+        if isinstance(inner, InputError):
+            message = inner.message
+        elif message.startswith("Value error, "):
+            message = message[len("Value error, "):]
+        loc = [str(p) for p in err.get("loc", ()) if p != "body" and not str(p).startswith((UNION_TAG_PREFIX, "function-"))]
+        out.append({"field": ".".join(loc), "message": message})
+    return out
+
+
+def _ohm(value: Any) -> float:
+    return parse_resistance(value, field="value")
+
+
+Ohm = Annotated[
+    float,
+    BeforeValidator(_ohm),
+    WithJsonSchema(
+        {
+            "anyOf": [{"type": "number", "exclusiveMinimum": 0}, {"type": "string", "maxLength": 64}],
+            "description": "Resistance in Ω: a number, SI text (4.7k, 4.7 kΩ) or an RKM code (4K7, R47)",
+            "examples": [4700, "4k7", "4.7 kΩ"],
+        }
+    ),
+]
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+
+_CHOICES = {"taper": Literal["linear", "log"], "wiring": Literal["divider", "rheostat"]}
+_DOCS = {
+    "ntc_beta": "NTC thermistor, beta model: R = Rn·exp(β(1/T − 1/Tn)).",
+    "ntc_sh": "NTC thermistor, Steinhart–Hart: 1/T = a + b·ln R + c·(ln R)³ (T in K).",
+    "rtd": "Platinum RTD, IEC 60751 Callendar–Van Dusen (defaults: the standard's A, B, C).",
+    "ldr": "Light-dependent resistor: R = Rref·(E/Eref)^−γ, optional dark resistance in parallel.",
+    "pot": "Potentiometer: position from the ground end (0..1), linear or log taper.",
+}
+
+
+def _sensor_model(kind: str) -> type[BaseModel]:
+    required, optional = field_spec(kind)
+    spec: dict[str, Any] = {"kind": (Literal[kind], ...)}
+    for name in (*required, *optional):
+        kind_of = Ohm if name.endswith("_ohm") else _CHOICES.get(name, float)
+        if name in optional:
+            spec[name] = (Optional[kind_of], optional[name])
+        else:
+            spec[name] = (kind_of, ...)
+    title = "".join(part.capitalize() for part in kind.split("_")) + "Sensor"
+    return create_model(title, __base__=Strict, __doc__=_DOCS[kind], **spec)
+
+
+SENSOR_MODELS = {kind: _sensor_model(kind) for kind in SENSOR_CLASSES}
+
+
+class PartRef(Strict):
+    """A part of the library by id (``GET /api/parts``)."""
+
+    part: str = Field(min_length=1, max_length=100)
+
+
+def _sensor_tag(value: Any) -> str | None:
+    """Route a sensor object to its kind's model, or to a part reference."""
+    if isinstance(value, dict):
+        if "part" in value:
+            return UNION_TAG_PREFIX + "part"
+        return UNION_TAG_PREFIX + str(value.get("kind")) if value.get("kind") in SENSOR_MODELS else None
+    return UNION_TAG_PREFIX + ("part" if isinstance(value, PartRef) else str(getattr(value, "kind", "")))
+
+
+# Tags show in error locations; the prefix lets the error handler drop them.
+UNION_TAG_PREFIX = "~"
+SensorIn = Annotated[
+    Union[
+        tuple(Annotated[model, Tag(UNION_TAG_PREFIX + kind)] for kind, model in SENSOR_MODELS.items())
+        + (Annotated[PartRef, Tag(UNION_TAG_PREFIX + "part")],)
+    ],
+    Discriminator(
+        _sensor_tag,
+        custom_error_type="sensor_kind",
+        custom_error_message="needs 'kind' (one of " + ", ".join(SENSOR_MODELS) + ") or 'part'",
+    ),
+]
+
+
+class CircuitIn(Strict):
+    supply_v: float = Field(gt=0, le=1000, description="Divider supply, V")
+    sensor_at: K.SensorAt = "bottom"
+    fixed_ohm: Optional[Ohm] = None
+    load_ohm: Optional[Ohm] = Field(None, description="Resistance from the output to ground (ADC input, next stage)")
+    parallel_ohm: Optional[Ohm] = Field(None, description="Resistor across the sensor")
+
+
+class RangeIn(Strict):
+    min: float = Field(description="Stimulus at the low end (°C, lux or travel)")
+    max: float = Field(description="Stimulus at the high end")
+
+
+class LimitsIn(Strict):
+    min_ohm: Ohm = K.DEFAULT_MIN_OHM
+    max_ohm: Ohm = K.DEFAULT_MAX_OHM
+    max_sensor_power_w: Optional[float] = Field(None, gt=0)
+
+
+class EvaluateIn(Strict):
+    sensor: SensorIn
+    circuit: CircuitIn
+    stimulus: list[float] = Field(min_length=1, max_length=K.MAX_STIMULUS_POINTS)
+
+
+class EvaluateOut(BaseModel):
+    stimulus: list[float]
+    sensor_ohm: list[float]
+    vout_v: list[float]
+    thevenin_ohm: list[float]
+    sensor_power_w: list[float]
+    sensitivity: list[float]
+
+
+class SolveIn(Strict):
+    sensor: SensorIn
+    circuit: CircuitIn
+    range: RangeIn
+    objective: K.Objective = "swing"
+    series: K.SeriesName = "E24"
+    limits: LimitsIn = Field(default_factory=LimitsIn)
+
+
+class Metrics(BaseModel):
+    swing_v: float
+    nonlinearity_pct: float
+    min_sensitivity: float
+    max_sensor_power_w: float
+
+
+class Candidate(BaseModel):
+    fixed_ohm: float
+    score: float
+
+
+class SolveOut(BaseModel):
+    fixed_ohm: float
+    exact_ohm: float
+    score: float
+    objective: str
+    series: str
+    metrics: Metrics
+    candidates: list[Candidate]
+
+
+class SeriesOut(BaseModel):
+    name: str
+    tolerance_pct: float
+    values: list[float]
+
+
+class FitPoint(Strict):
+    stimulus: float
+    ohm: Ohm
+
+
+class FitIn(Strict):
+    kind: Literal["ntc_beta", "ntc_sh", "ldr", "rtd"]
+    points: list[FitPoint] = Field(min_length=1, max_length=10_000)
+
+
+class FitOut(BaseModel):
+    sensor: dict[str, Any]
+    residuals: list[float]
+    max_abs_error: float
+
+
+class PartOut(BaseModel):
+    id: str
+    name: str
+    kind: str
+    sensor: dict[str, Any]
+    notes: str
+    tolerances: dict[str, float] = Field(default_factory=dict)
+    dissipation_w_per_k: Optional[float] = None

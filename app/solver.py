@@ -1,0 +1,159 @@
+"""Choose the fixed resistor: exact optimum and best series value.
+
+All candidates × all points are scored in one broadcast: candidate
+resistances (k, 1) against the stimulus grid (n,) give vout (k, n).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Optional
+
+import numpy as np
+
+from app import constants as K
+from app import objectives, series
+from app.circuit import Circuit, needs_fixed, respond
+from app.errors import InputError
+from app.models.base import Sensor
+
+
+@dataclass(frozen=True)
+class Limits:
+    min_ohm: float = K.DEFAULT_MIN_OHM
+    max_ohm: float = K.DEFAULT_MAX_OHM
+    max_sensor_power_w: Optional[float] = None
+
+    def __post_init__(self):
+        if not (np.isfinite(self.min_ohm) and self.min_ohm > 0):
+            raise InputError("limits.min_ohm", "must be a positive resistance")
+        if not (np.isfinite(self.max_ohm) and self.max_ohm > self.min_ohm):
+            raise InputError("limits.max_ohm", "must be finite and above limits.min_ohm")
+        p = self.max_sensor_power_w
+        if p is not None and not (np.isfinite(p) and p > 0):
+            raise InputError("limits.max_sensor_power_w", "must be a positive power in W")
+
+
+@dataclass(frozen=True)
+class Problem:
+    sensor: Sensor
+    circuit: Circuit
+    lo: float
+    hi: float
+    objective: str = "swing"
+    limits: Limits = field(default_factory=Limits)
+
+    def __post_init__(self):
+        if not needs_fixed(self.sensor):
+            raise InputError("sensor.wiring", "a pot in divider wiring has no fixed resistor to choose")
+        if self.objective not in objectives.DIRECTION:
+            raise InputError("objective", f"must be one of {', '.join(objectives.DIRECTION)}")
+        if not (np.isfinite(self.lo) and np.isfinite(self.hi)):
+            raise InputError("range", "min and max must be finite numbers")
+        if self.hi <= self.lo:
+            raise InputError("range.max", f"must be above range.min ({self.lo:g}), got {self.hi:g}")
+        self.sensor.check_stimulus(np.array([self.lo, self.hi]), field="range")
+
+    @property
+    def grid(self) -> np.ndarray:
+        return self.sensor.grid(self.lo, self.hi, K.OBJECTIVE_POINTS)
+
+    def score(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+        """(scores, feasible mask, metrics), each (k,), for candidates (k,)."""
+        s = self.grid
+        axis = self.sensor.to_axis(s)
+        resp = respond(self.sensor, self.circuit, s, np.asarray(fixed_ohm, float)[:, None])
+        vout = resp.vout_v
+        found = objectives.score(self.objective, vout, axis)
+        extra = objectives.metrics(vout, axis, resp.sensor_power_w)
+        feasible = np.isfinite(found)
+        if self.limits.max_sensor_power_w is not None:
+            feasible &= extra["max_sensor_power_w"] <= self.limits.max_sensor_power_w
+        return found, feasible, extra
+
+
+@dataclass(frozen=True)
+class Solution:
+    objective: str
+    series: str
+    fixed_ohm: float
+    exact_ohm: float
+    score: float
+    exact_score: float
+    metrics: dict
+    candidates: list  # [(ohm, score)], best first
+
+
+def _ranked(problem: Problem, candidates: np.ndarray):
+    found, feasible, extra = problem.score(candidates)
+    ranked = np.where(feasible, objectives.loss(problem.objective, found), np.inf)
+    return found, ranked, extra
+
+
+def _no_feasible() -> InputError:
+    return InputError(
+        "limits.max_sensor_power_w",
+        "no fixed resistor between the limits keeps the sensor power within the limit",
+    )
+
+
+def _zoom(problem: Problem, log_centre: float, half: float, best_loss: float) -> tuple[float, float]:
+    """Shrink a bracket around the best point, round after round (derivative-free)."""
+    lo, hi = np.log10(problem.limits.min_ohm), np.log10(problem.limits.max_ohm)
+    best_log = log_centre
+    for _ in range(K.SOLVER_ZOOM_ROUNDS):
+        trial = np.clip(np.linspace(best_log - half, best_log + half, K.SOLVER_ZOOM_POINTS), lo, hi)
+        _, ranked, _ = _ranked(problem, 10.0**trial)
+        i = int(np.argmin(ranked))
+        if ranked[i] <= best_loss:
+            best_log, best_loss = float(trial[i]), float(ranked[i])
+        half *= 2.0 / (K.SOLVER_ZOOM_POINTS - 1)
+    return float(10.0**best_log), best_loss
+
+
+def solve(problem: Problem, series_name: str = "E24") -> Solution:
+    """Best series value (every decade between the limits) and the exact optimum.
+
+    The series values and a log grid are scored together in one broadcast;
+    the grid's best point (or the series' own, whichever wins) seeds the
+    zoom, so the exact optimum is never worse than any series value.
+    """
+    limits = problem.limits
+    lo, hi = np.log10(limits.min_ohm), np.log10(limits.max_ohm)
+    grid = 10.0 ** np.linspace(lo, hi, max(int(np.ceil((hi - lo) * K.SOLVER_GRID_PER_DECADE)), 8) + 1)
+    if series_name == "exact":
+        values = np.empty(0)
+    else:
+        values = series.values_between(series_name, limits.min_ohm, limits.max_ohm)
+        if values.size == 0:
+            raise InputError("limits", f"no {series_name} value lies between the limits")
+    pool = np.concatenate([values, grid])
+    found, ranked, extra = _ranked(problem, pool)
+    if not np.isfinite(ranked).any():
+        raise _no_feasible()
+    top = int(np.argmin(ranked))
+    exact, exact_loss = _zoom(problem, float(np.log10(pool[top])), 1.0 / K.SOLVER_GRID_PER_DECADE, float(ranked[top]))
+    exact_found, _, exact_extra = _ranked(problem, np.array([exact]))
+
+    if series_name == "exact":
+        picked = np.array([exact])
+        found, ranked, extra = exact_found, np.array([exact_loss]), exact_extra
+    else:
+        picked = values
+        n = values.size
+        found, ranked, extra = found[:n], ranked[:n], {k: v[:n] for k, v in extra.items()}
+        if not np.isfinite(ranked).any():
+            raise _no_feasible()
+    order = np.argsort(ranked, kind="stable")
+    order = order[np.isfinite(ranked[order])][: K.SOLVER_CANDIDATES]
+    best = int(order[0])
+    return Solution(
+        objective=problem.objective,
+        series=series_name,
+        fixed_ohm=float(picked[best]),
+        exact_ohm=exact,
+        score=float(found[best]),
+        exact_score=float(exact_found[0]),
+        metrics={name: float(v[best]) for name, v in extra.items()},
+        candidates=[(float(picked[i]), float(found[i])) for i in order],
+    )
