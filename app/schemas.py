@@ -172,6 +172,7 @@ class SolveOut(BaseModel):
     series: str
     metrics: Metrics
     candidates: list[Candidate]
+    warnings: list[str] = Field(default_factory=list, description="e.g. a fitted part used outside its fitted range")
 
 
 class SeriesOut(BaseModel):

@@ -60,6 +60,22 @@ def evaluate(req: schemas.EvaluateIn, library: Library) -> dict[str, Any]:
     }
 
 
+def range_warnings(spec: Any, lo: float, hi: float, library: Library) -> list[str]:
+    """Warn when a fitted part is used beyond the stimulus range it was fitted over."""
+    if not isinstance(spec, schemas.PartRef):
+        return []
+    part = library.get(spec.part)
+    if part.fitted is None:
+        return []
+    f_lo, f_hi = part.fitted
+    out = []
+    if lo < f_lo:
+        out.append(f"range.min {lo:g} is {f_lo - lo:g} below the {f_lo:g} .. {f_hi:g} range {part.name} was fitted over: extrapolated")
+    if hi > f_hi:
+        out.append(f"range.max {hi:g} is {hi - f_hi:g} above the {f_lo:g} .. {f_hi:g} range {part.name} was fitted over: extrapolated")
+    return out
+
+
 def problem_of(req: Any, library: Library) -> Problem:
     sensor = sensor_of(req.sensor, library)
     circuit = circuit_of(req.circuit)
@@ -82,7 +98,9 @@ def solution_dict(sol: Solution) -> dict[str, Any]:
 def solve(req: schemas.SolveIn, library: Library) -> dict[str, Any]:
     if req.circuit.fixed_ohm is not None:
         raise InputError("circuit.fixed_ohm", "must be absent: the solver chooses the fixed resistor")
-    return solution_dict(solve_problem(problem_of(req, library), req.series))
+    out = solution_dict(solve_problem(problem_of(req, library), req.series))
+    out["warnings"] = range_warnings(req.sensor, req.range.min, req.range.max, library)
+    return out
 
 
 def series_table(name: str) -> dict[str, Any]:

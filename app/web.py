@@ -14,7 +14,7 @@ from fastapi.staticfiles import StaticFiles
 
 from app import __version__
 from app.api import errors
-from app.api import budget, compare, core, designs, table, trip
+from app.api import budget, compare, core, designs, shelf, table, trip
 from app.pages import accuracy, alarms, firmware, routes, saved, shelf
 from app.parts import Library
 from app.settings import Settings
@@ -23,7 +23,7 @@ ROOT = Path(__file__).resolve().parent.parent
 STATIC_DIR = ROOT / "static"
 PLOTLY_DIR = Path(plotly.__file__).resolve().parent / "package_data"
 
-API_ROUTERS = (core.router, designs.router, compare.router, budget.router, table.router, trip.router)
+API_ROUTERS = (core.router, designs.router, shelf.router, compare.router, budget.router, table.router, trip.router)
 PAGE_ROUTERS = (routes.router, saved.router, shelf.router, accuracy.router, firmware.router, alarms.router)
 
 

@@ -1,0 +1,5 @@
+"""(filled in by its issue)"""
+
+from fastapi import APIRouter
+
+router = APIRouter(prefix="/api")
