@@ -9,6 +9,8 @@ Series values m·10^d are built from integer mantissas (47 for 4.7) and exact
 powers of ten, so 4.7 kΩ is exactly ``4700.0`` and 0.47 Ω is ``float("0.47")``.
 """
 
+from functools import lru_cache
+
 import numpy as np
 
 from app.errors import InputError
@@ -105,11 +107,19 @@ def values_between(name: str, lo_ohm: float, hi_ohm: float) -> np.ndarray:
     lo, hi = float(lo), float(hi)
     if lo > hi:
         raise InputError("max_ohm", f"must not be below min_ohm ({lo:g} Ω), got {hi:g} Ω")
+    return _between(name, lo, hi).copy()
+
+
+@lru_cache(maxsize=256)
+def _between(name: str, lo: float, hi: float) -> np.ndarray:
+    """Cached: every solve asks for the same few ranges."""
     decades = np.arange(int(np.floor(np.log10(lo))) - 1, int(np.ceil(np.log10(hi))) + 1)
     count = len(_MANTISSAS[name])
     grid = _scaled(name, np.arange(count)[None, :], decades[:, None]).ravel()
     keep = (grid >= lo * (1 - _REL_EPS)) & (grid <= hi * (1 + _REL_EPS))
-    return grid[keep]
+    values = grid[keep]
+    values.flags.writeable = False
+    return values
 
 
 def _position(name: str, ohm, field: str):

@@ -36,7 +36,7 @@ def build_sensor(spec: Mapping[str, Any]) -> Sensor:
     if not isinstance(spec, Mapping):
         raise InputError("", "a sensor must be an object with a 'kind'")
     kind = spec.get("kind")
-    if kind not in SENSOR_CLASSES:
+    if not isinstance(kind, str) or kind not in SENSOR_CLASSES:
         raise InputError("kind", f"must be one of {', '.join(SENSOR_CLASSES)}, got {kind!r}")
     required, optional = field_spec(kind)
     unknown = sorted(set(spec) - {"kind", *required, *optional})

@@ -32,6 +32,17 @@ def check_positive(field: str, value: Any) -> float:
     return value
 
 
+# Sensor resistances outside this span are typing errors, not parts (and overflow the models).
+MIN_PART_OHM, MAX_PART_OHM = 1e-3, 1e12
+
+
+def check_resistance(field: str, value: Any) -> float:
+    value = check_positive(field, value)
+    if not MIN_PART_OHM <= value <= MAX_PART_OHM:
+        raise InputError(field, f"must lie within {MIN_PART_OHM:g} .. {MAX_PART_OHM:g} Ω, got {value:g}")
+    return value
+
+
 def check_finite(field: str, value: Any) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(field, f"must be a number, got {value!r}")

@@ -8,7 +8,7 @@ from typing import Optional
 import numpy as np
 
 from app.errors import InputError
-from app.models.base import Sensor, as_array, check_positive
+from app.models.base import Sensor, as_array, check_resistance, check_positive
 
 _LN10 = np.log(10.0)
 
@@ -31,14 +31,14 @@ class PowerLawLDR(Sensor):
     r_dark_ohm: Optional[float] = None
 
     def __post_init__(self):
-        object.__setattr__(self, "r_ref_ohm", check_positive("r_ref_ohm", self.r_ref_ohm))
+        object.__setattr__(self, "r_ref_ohm", check_resistance("r_ref_ohm", self.r_ref_ohm))
         gamma = check_positive("gamma", self.gamma)
         if gamma > 3.0:
             raise InputError("gamma", f"{gamma:g} is not a photoresistor slope (0 .. 3)")
         object.__setattr__(self, "gamma", gamma)
         object.__setattr__(self, "lux_ref", check_positive("lux_ref", self.lux_ref))
         if self.r_dark_ohm is not None:
-            object.__setattr__(self, "r_dark_ohm", check_positive("r_dark_ohm", self.r_dark_ohm))
+            object.__setattr__(self, "r_dark_ohm", check_resistance("r_dark_ohm", self.r_dark_ohm))
 
     def to_axis(self, stimulus):
         return np.log10(as_array(stimulus))

@@ -8,7 +8,7 @@ import numpy as np
 
 from app.constants import KELVIN_OFFSET
 from app.errors import InputError
-from app.models.base import Sensor, as_array, check_finite, check_positive
+from app.models.base import Sensor, as_array, check_resistance, check_finite, check_positive
 
 
 class _Thermistor(Sensor):
@@ -31,7 +31,7 @@ class BetaNTC(_Thermistor):
     t_nominal_c: float = 25.0
 
     def __post_init__(self):
-        object.__setattr__(self, "r_nominal_ohm", check_positive("r_nominal_ohm", self.r_nominal_ohm))
+        object.__setattr__(self, "r_nominal_ohm", check_resistance("r_nominal_ohm", self.r_nominal_ohm))
         beta = check_positive("beta_k", self.beta_k)
         if not 100.0 <= beta <= 20000.0:
             raise InputError("beta_k", f"{beta:g} K is not a thermistor's B value (100 .. 20000 K)")
@@ -81,17 +81,28 @@ class SteinhartHartNTC(_Thermistor):
             raise InputError("b", "must be positive for an NTC (resistance falls as T rises)")
         if self.c < 0:
             raise InputError("c", "must be zero or positive for a monotonic NTC curve")
-        r25 = float(self.resistance(np.array(25.0)))
+        with np.errstate(all="ignore"):  # absurd coefficients overflow: refused just below
+            r25 = float(self.resistance(np.array(25.0)))
         if not np.isfinite(r25) or not 1e-3 < r25 < 1e12:
             raise InputError("a", "coefficients do not give a plausible resistance at 25 °C")
 
     def resistance(self, stimulus):
         inv_t = 1.0 / (as_array(stimulus) + KELVIN_OFFSET)
+        beta_root = (inv_t - self.a) / self.b  # ln R when c = 0
         if self.c == 0:
-            return np.exp((inv_t - self.a) / self.b)
-        y = (self.a - inv_t) / self.c
-        x = np.sqrt((self.b / (3.0 * self.c)) ** 3 + (y / 2.0) ** 2)
-        return np.exp(np.cbrt(x - y / 2.0) - np.cbrt(x + y / 2.0))
+            return np.exp(beta_root)
+        # Cardano, ln R = cbrt(x − y/2) − cbrt(x + y/2), written without its
+        # cancellation: the two roots multiply to s = b/(3c), so the
+        # difference is −y / (L² + s + s²/L²), L the cube root of x + |y|/2.
+        # For a tiny c (a fit of beta-like data) s³ overflows: the cubic term
+        # is then negligible and the c = 0 root is exact.
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            s = np.float64(self.b) / (3.0 * self.c)
+            y = (self.a - inv_t) / self.c
+            x = np.sqrt(s**3 + (y / 2.0) ** 2)
+            big = np.cbrt(x + np.abs(y) / 2.0) ** 2
+            ln_r = -y / (big + s + s * s / big)
+        return np.exp(np.where(np.isfinite(x), ln_r, beta_root))
 
     def stimulus_of(self, ohm):
         with np.errstate(divide="ignore", invalid="ignore"):

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from app.errors import InputError
-from app.models.base import Sensor, as_array, check_finite, check_positive
+from app.models.base import Sensor, as_array, check_resistance, check_finite, check_positive
 
 
 @dataclass(frozen=True)
@@ -32,7 +32,7 @@ class Potentiometer(Sensor):
     mid_fraction: float = 0.1
 
     def __post_init__(self):
-        object.__setattr__(self, "r_total_ohm", check_positive("r_total_ohm", self.r_total_ohm))
+        object.__setattr__(self, "r_total_ohm", check_resistance("r_total_ohm", self.r_total_ohm))
         if self.taper not in ("linear", "log"):
             raise InputError("taper", f"must be 'linear' or 'log', got {self.taper!r}")
         if self.wiring not in ("divider", "rheostat"):
@@ -59,7 +59,7 @@ class Potentiometer(Sensor):
         if self.taper == "linear":
             return x * self.r_total_ohm
         a = self._base
-        return self.r_total_ohm * (a**x - 1.0) / (a - 1.0)
+        return self.r_total_ohm * ((a**x - 1.0) / (a - 1.0))  # exactly R at x = 1, never above
 
     def dr_daxis(self, stimulus):
         x = as_array(stimulus)

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from app.errors import InputError
-from app.models.base import Sensor, as_array, check_finite, check_positive
+from app.models.base import Sensor, as_array, check_resistance, check_finite, check_positive
 
 # IEC 60751 coefficients for α = 0.00385 platinum.
 IEC_A = 3.9083e-3
@@ -36,14 +36,18 @@ class PlatinumRTD(Sensor):
     c: float = IEC_C
 
     def __post_init__(self):
-        object.__setattr__(self, "r0_ohm", check_positive("r0_ohm", self.r0_ohm))
+        object.__setattr__(self, "r0_ohm", check_resistance("r0_ohm", self.r0_ohm))
         for name in ("a", "b", "c"):
             object.__setattr__(self, name, check_finite(name, getattr(self, name)))
         if not 1e-3 < self.a < 1e-2:
             raise InputError("a", f"{self.a:g} /°C is not a platinum coefficient (1e-3 .. 1e-2)")
         probe = np.linspace(self.stimulus_min, self.stimulus_max, 211)
-        if np.any(self.dr_daxis(probe) <= 0):
-            raise InputError("b", "coefficients make R(t) non-monotonic within -200 .. 850 °C")
+        with np.errstate(all="ignore"):  # absurd coefficients overflow: refused just below
+            slope, ratio = self.dr_daxis(probe), self._poly(probe)
+        if not (np.all(np.isfinite(slope)) and np.all(np.isfinite(ratio))):
+            raise InputError("b", "coefficients give no finite resistance within -200 .. 850 °C")
+        if np.any(slope <= 0) or np.any(ratio <= 0):
+            raise InputError("b", "coefficients make R(t) non-monotonic or non-positive within -200 .. 850 °C")
 
     def _poly(self, t):
         cold = np.where(t < 0, self.c * (t - 100.0) * t**3, 0.0)
