@@ -28,7 +28,10 @@ class Circuit:
     parallel_ohm: Optional[float] = None
 
     def __post_init__(self):
-        object.__setattr__(self, "supply_v", check_positive("supply_v", self.supply_v))
+        supply = check_positive("supply_v", self.supply_v)
+        if not 0.01 <= supply <= 1000.0:
+            raise InputError("supply_v", f"must lie within 0.01 .. 1000 V, got {supply:g}")
+        object.__setattr__(self, "supply_v", supply)
         if self.sensor_at not in ("top", "bottom"):
             raise InputError("sensor_at", f"must be 'top' or 'bottom', got {self.sensor_at!r}")
         for name in ("fixed_ohm", "load_ohm", "parallel_ohm"):
@@ -60,46 +63,76 @@ def _parallel(r: np.ndarray, other: Optional[float]) -> tuple[np.ndarray, np.nda
     return r * other / (r + other), (other / (r + other)) ** 2
 
 
+def _arms(sensor: Sensor, circuit: Circuit, rs, drs, fixed_ohm):
+    """(rt, rb, drt, drb): the two arms and their slopes (None when ``drs`` is None).
+
+    Left unbroadcast: points (n,) against fixed values (k, 1) meet only in the
+    first operation that needs both, so the solver's inner loop stays lean.
+    """
+    if not needs_fixed(sensor):
+        return sensor.r_total_ohm - rs, rs, None if drs is None else -drs, drs
+    fixed = circuit.fixed_ohm if fixed_ohm is None else fixed_ohm
+    if fixed is None:
+        raise InputError("circuit.fixed_ohm", "is required to evaluate this divider")
+    fixed = as_array(fixed)
+    p = circuit.parallel_ohm
+    element = rs if p is None else rs * p / (rs + p)
+    delement = None if drs is None else (drs if p is None else drs * (p / (rs + p)) ** 2)
+    if circuit.sensor_at == "top":
+        return element, fixed, delement, None if drs is None else 0.0
+    return fixed, element, None if drs is None else 0.0, delement
+
+
+def _sensor_power(sensor: Sensor, circuit: Circuit, rs, rt, rb, total):
+    """Power in the sensor itself (the whole track of a divider pot), W."""
+    # Branch currents by current division: finite even where an arm is 0 Ω.
+    i_top = circuit.supply_v / total
+    i_bottom = i_top if circuit.load_ohm is None else i_top * circuit.load_ohm / (rb + circuit.load_ohm)
+    if not needs_fixed(sensor):
+        return i_top**2 * rt + i_bottom**2 * rb
+    i_element = i_top if circuit.sensor_at == "top" else i_bottom
+    share = 1.0 if circuit.parallel_ohm is None else circuit.parallel_ohm / (rs + circuit.parallel_ohm)
+    return (i_element * share) ** 2 * rs
+
+
+def _loaded(circuit: Circuit, rb):
+    return rb if circuit.load_ohm is None else rb * circuit.load_ohm / (rb + circuit.load_ohm)
+
+
+def divider_output(sensor: Sensor, circuit: Circuit, stimulus, fixed_ohm=None, with_power: bool = False,
+                   sensor_ohm=None):
+    """(vout, sensor power or None): only what a solver scores, for one or many fixed values.
+
+    Same numbers as :func:`respond`'s ``vout_v`` and ``sensor_power_w``
+    without the slopes and Thevenin resistance: ``stimulus`` (n,), ``fixed_ohm``
+    (k, 1) give (k, n) V and W. ``sensor_ohm`` (n,), when given, is
+    ``sensor.resistance(stimulus)`` computed once by a caller that asks many times.
+    """
+    rs = sensor.resistance(as_array(stimulus)) if sensor_ohm is None else sensor_ohm
+    rt, rb, _, _ = _arms(sensor, circuit, rs, None, fixed_ohm)
+    rb_loaded = _loaded(circuit, rb)
+    total = rt + rb_loaded
+    # In place: the (k, n) temporaries dominate the solver's time.
+    vout = np.divide(rb_loaded, total, out=None if with_power else total)
+    vout *= circuit.supply_v
+    return vout, (_sensor_power(sensor, circuit, rs, rt, rb, total) if with_power else None)
+
+
 def respond(sensor: Sensor, circuit: Circuit, stimulus, fixed_ohm=None) -> Response:
     """Everything the divider does at each stimulus, for one or many fixed values."""
     s = as_array(stimulus)
     rs = sensor.resistance(s)
     drs = sensor.dr_daxis(s)
     vs = circuit.supply_v
-
-    if not needs_fixed(sensor):
-        rt, rb = sensor.r_total_ohm - rs, rs
-        drt, drb = -drs, drs
-    else:
-        fixed = circuit.fixed_ohm if fixed_ohm is None else fixed_ohm
-        if fixed is None:
-            raise InputError("circuit.fixed_ohm", "is required to evaluate this divider")
-        fixed = as_array(fixed)
-        element, delement_drs = _parallel(rs, circuit.parallel_ohm)
-        delement = drs * delement_drs
-        zero = np.zeros_like(element)
-        if circuit.sensor_at == "top":
-            rt, rb, drt, drb = element, fixed, delement, zero
-        else:
-            rt, rb, drt, drb = fixed, element, zero, delement
-        rt, rb, drt, drb = np.broadcast_arrays(rt, rb, drt, drb)
+    rt, rb, drt, drb = _arms(sensor, circuit, rs, drs, fixed_ohm)
 
     rb_loaded, drbl_drb = _parallel(rb, circuit.load_ohm)
     drb_loaded = drb * drbl_drb
     total = rt + rb_loaded
-    vout = vs * rb_loaded / total
+    vout = vs * (rb_loaded / total)  # the ratio is ≤ 1 in floating point, so Vout never exceeds Vs
     sensitivity = vs * (rt * drb_loaded - rb_loaded * drt) / total**2
     thevenin = rt * rb_loaded / total
-
-    # Branch currents by current division: finite even where an arm is 0 Ω.
-    i_top = vs / total
-    i_bottom = i_top if circuit.load_ohm is None else i_top * circuit.load_ohm / (rb + circuit.load_ohm)
-    if not needs_fixed(sensor):
-        power = i_top**2 * rt + i_bottom**2 * rb
-    else:
-        i_element = i_top if circuit.sensor_at == "top" else i_bottom
-        share = 1.0 if circuit.parallel_ohm is None else circuit.parallel_ohm / (rs + circuit.parallel_ohm)
-        power = (i_element * share) ** 2 * rs
+    power = _sensor_power(sensor, circuit, rs, rt, rb, total)
 
     shape = np.broadcast_shapes(vout.shape, s.shape)
     return Response(

@@ -13,6 +13,7 @@ from typing import Any, Callable
 from pydantic import ValidationError
 
 from app import schemas, service
+from app.api import trip as trip_api
 from app.errors import InputError
 from app.parts import Library, PartNotFound
 from app.settings import Settings
@@ -42,10 +43,12 @@ def show_solve(out: dict) -> str:
         f"{out['objective']} score {out['score']:.6g}",
         f"exact optimum: {format_resistance(out['exact_ohm'], 5)}",
         f"swing {m['swing_v']:.4g} V, nonlinearity {m['nonlinearity_pct']:.3g} %, "
-        f"worst sensitivity {m['min_sensitivity']:.4g} V/unit, max sensor power {m['max_sensor_power_w']:.3g} W",
+        f"worst sensitivity {m['min_sensitivity']:.4g} V per axis unit (°C, decade of lux or travel), "
+        f"max sensor power {m['max_sensor_power_w']:.3g} W",
         "candidates:",
     ]
     lines += [f"  {format_resistance(c['fixed_ohm']):>10}  {c['score']:.6g}" for c in out["candidates"]]
+    lines += [f"warning: {w}" for w in out.get("warnings", [])]
     return "\n".join(lines)
 
 
@@ -61,6 +64,7 @@ REQUEST_COMMANDS: dict[str, tuple[type, Callable, Callable[[dict], str], str]] =
     "evaluate": (schemas.EvaluateIn, service.evaluate, show_evaluate, "output, Thevenin resistance, power and slope"),
     "solve": (schemas.SolveIn, service.solve, show_solve, "choose the fixed resistor"),
     "fit": (schemas.FitIn, lambda req, lib: service.fit(req), show_fit, "fit a sensor model to points"),
+    "trip": (trip_api.TripIn, trip_api.solve_trip, trip_api.describe, "comparator trip and release with hysteresis"),
 }
 
 
@@ -70,7 +74,11 @@ class BadInput(Exception):
 
 def _read_request(path: str, model: type) -> Any:
     try:
-        text = sys.stdin.read() if path == "-" else open(path, encoding="utf-8").read()
+        if path == "-":
+            text = sys.stdin.read()
+        else:
+            with open(path, encoding="utf-8") as handle:
+                text = handle.read()
     except OSError as err:
         raise BadInput(f"cannot read {path}: {err.strerror}") from None
     try:
@@ -98,6 +106,32 @@ def run_request(name: str, path: str, as_json: bool, library: Library) -> str:
     return json.dumps(out, indent=2, allow_nan=False) if as_json else show(out)
 
 
+def run_table(args: argparse.Namespace, library: Library) -> str:
+    """``ohmpick table``: the table as JSON, CSV or a C header, on standard output or in --out."""
+    from pathlib import Path
+
+    from app.table_request import TableIn, compute
+
+    request = _read_request(args.file, TableIn)
+    fmt = args.format or request.format
+    try:
+        computed = compute(request, library)
+        text = json.dumps(computed.json(), indent=2, allow_nan=False) + "\n" if fmt == "json" else computed.text(fmt)
+    except InputError as err:
+        raise BadInput(str(err)) from None
+    except PartNotFound as err:
+        raise BadInput(f"sensor.part: no part with id {err.part_id!r} in the library") from None
+    if not args.out:
+        return text.rstrip("\n")
+    try:
+        Path(args.out).write_text(text, encoding="utf-8")
+    except OSError as err:
+        raise BadInput(f"cannot write {args.out}: {err.strerror}") from None
+    table = computed.table
+    return (f"wrote {args.out}: {table.codes.size} entries, codes {table.codes[0]} .. {table.codes[-1]}, largest "
+            f"interpolation error {table.max_error:.4g} {computed.tables.design.axis_unit}")
+
+
 def parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="ohmpick", description="Design sensor voltage dividers.")
     p.add_argument("--parts", help="folder of part TOML files (default: the demo parts)")
@@ -106,6 +140,12 @@ def parser() -> argparse.ArgumentParser:
         c = sub.add_parser(name, help=text, description=f"{text}. FILE is a JSON request body as for POST /api/{name}, or - for standard input.")
         c.add_argument("file", metavar="FILE")
         c.add_argument("--json", action="store_true", help="print the endpoint's JSON")
+    t = sub.add_parser("table", help="ADC code to stimulus table for firmware",
+                       description="ADC code to stimulus table for firmware. FILE is a JSON request body as for "
+                                   "POST /api/table, or - for standard input.")
+    t.add_argument("file", metavar="FILE")
+    t.add_argument("--format", choices=("json", "csv", "c"), help="json, csv or c (a C99 header); default: the file's format, else json")
+    t.add_argument("--out", metavar="PATH", help="write the table to PATH instead of standard output")
     s = sub.add_parser("serve", help="start the web app")
     s.add_argument("--host", default="127.0.0.1")
     s.add_argument("--port", type=int, default=8000)
@@ -118,11 +158,17 @@ def main(argv: list[str] | None = None) -> int:
     args = parser().parse_args(argv)
     try:
         if args.command == "serve":
-            from app.serve import serve
+            from app.serve import ServeError, serve
 
-            return serve(args)
+            try:
+                return serve(args)
+            except ServeError as err:
+                raise BadInput(str(err)) from None
         settings = Settings.from_env(parts_dir=args.parts)
         library = Library.load(settings.parts_dir)
+        if args.command == "table":
+            print(run_table(args, library))
+            return 0
         print(run_request(args.command, args.file, args.json, library))
         return 0
     except BadInput as err:

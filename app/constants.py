@@ -5,11 +5,11 @@ from typing import Literal
 # SI Brochure (9th ed.): T/K = t/°C + 273.15.
 KELVIN_OFFSET = 273.15
 
-Kind = Literal["ntc_beta", "ntc_sh", "rtd", "ldr", "pot"]
+# The contract's sensor kinds; app/models registers one class per kind (a test checks they match).
 KINDS: tuple[str, ...] = ("ntc_beta", "ntc_sh", "rtd", "ldr", "pot")
 
-Objective = Literal["swing", "linearity", "sensitivity"]
-OBJECTIVES: tuple[str, ...] = ("swing", "linearity", "sensitivity")
+Objective = Literal["swing", "linearity", "sensitivity", "accuracy"]
+OBJECTIVES: tuple[str, ...] = ("swing", "linearity", "sensitivity", "accuracy")
 
 SeriesName = Literal["E3", "E6", "E12", "E24", "E48", "E96", "E192", "exact"]
 SensorAt = Literal["top", "bottom"]
@@ -27,8 +27,8 @@ MAX_BODY_BYTES = 1_000_000
 
 # Solver search: log-spaced grid density and zoom refinement.
 SOLVER_GRID_PER_DECADE = 24
-SOLVER_ZOOM_POINTS = 21
-SOLVER_ZOOM_ROUNDS = 8
+SOLVER_ZOOM_POINTS = 41
+SOLVER_ZOOM_ROUNDS = 4
 SOLVER_CANDIDATES = 5
 
 DEFAULT_MIN_OHM = 1.0

@@ -35,16 +35,24 @@ def trace(x, y, name: str, index: int = 0, *, dash: Optional[str] = None, width:
 
 
 def figure(traces: Iterable[dict], x_title: str, y_title: str, *, title: str = "", log_x: bool = False,
-           shapes: Optional[list] = None, annotations: Optional[list] = None) -> dict:
-    """A figure dict with titled axes (units in the titles)."""
+           shapes: Optional[list] = None, annotations: Optional[list] = None,
+           legend_entry_px: Optional[int] = None) -> dict:
+    """A figure dict with titled axes (units in the titles).
+
+    ``legend_entry_px``: fixed width of a legend entry's text, so several short
+    entries share a row (plotly otherwise gives each its own row).
+    """
     layout = go.Layout(
         title={"text": title, "font": {"size": 14}} if title else None,
         xaxis={"title": {"text": x_title}, "type": "log" if log_x else "linear", "gridcolor": "#e3e7eb", "zeroline": False},
         yaxis={"title": {"text": y_title}, "gridcolor": "#e3e7eb", "zeroline": False},
         paper_bgcolor="#ffffff", plot_bgcolor="#ffffff", hovermode="x unified",
-        legend={"orientation": "h", "y": -0.22, "x": 0},
+        # Above the plot: below it, a wrapped legend runs into the x-axis title.
+        legend={"orientation": "h", "x": 0, "xanchor": "left", "y": 1.02, "yanchor": "bottom"},
         font={"family": "system-ui, sans-serif", "size": 12, "color": "#1d2329"},
         shapes=shapes or [], annotations=annotations or [],
     ).to_plotly_json()
+    if legend_entry_px:
+        layout["legend"].update(entrywidth=legend_entry_px, entrywidthmode="pixels")
     return {"data": list(traces), "layout": layout}
 

@@ -96,6 +96,8 @@ def part_from_mapping(part_id: str, data: Any, origin: str = "library") -> Part:
     for required in ("name", "notes", "sensor"):
         if required not in data:
             raise InputError(required, "is required")
+    if isinstance(data["sensor"], dict) and not isinstance(data["sensor"].get("kind"), str):
+        raise InputError("sensor.kind", "must be the name of a sensor kind (text)")
     try:
         sensor = build_sensor(data["sensor"])
     except InputError as err:
@@ -164,6 +166,12 @@ class Library:
 
     def add(self, part: Part) -> None:
         self.parts[part.id] = part
+
+    def remove(self, part_id: str) -> Part:
+        """Take a part out (user parts on deletion); raises PartNotFound."""
+        part = self.get(part_id)
+        del self.parts[part_id]
+        return part
 
     def all(self) -> list[Part]:
         return sorted(self.parts.values(), key=lambda p: (p.kind, p.name))

@@ -90,7 +90,8 @@ def _sensor_tag(value: Any) -> str | None:
     if isinstance(value, dict):
         if "part" in value:
             return UNION_TAG_PREFIX + "part"
-        return UNION_TAG_PREFIX + str(value.get("kind")) if value.get("kind") in SENSOR_MODELS else None
+        kind = value.get("kind")
+        return UNION_TAG_PREFIX + kind if isinstance(kind, str) and kind in SENSOR_MODELS else None
     return UNION_TAG_PREFIX + ("part" if isinstance(value, PartRef) else str(getattr(value, "kind", "")))
 
 
@@ -110,7 +111,7 @@ SensorIn = Annotated[
 
 
 class CircuitIn(Strict):
-    supply_v: float = Field(gt=0, le=1000, description="Divider supply, V")
+    supply_v: float = Field(ge=0.01, le=1000, description="Divider supply, V (10 mV .. 1 kV)")
     sensor_at: K.SensorAt = "bottom"
     fixed_ohm: Optional[Ohm] = None
     load_ohm: Optional[Ohm] = Field(None, description="Resistance from the output to ground (ADC input, next stage)")
@@ -143,6 +144,52 @@ class EvaluateOut(BaseModel):
     sensitivity: list[float]
 
 
+class WindowIn(Strict):
+    """The converter's usable input range; each edge in volts or as a fraction of the reference (the tighter wins)."""
+
+    min_v: Optional[float] = Field(None, ge=0, le=1000, description="Lowest usable input, V")
+    max_v: Optional[float] = Field(None, gt=0, le=1000, description="Highest usable input, V")
+    min_fraction: Optional[float] = Field(None, ge=0, le=1, description="Lowest usable input as a fraction of the reference")
+    max_fraction: Optional[float] = Field(None, ge=0, le=1, description="Highest usable input as a fraction of the reference")
+
+
+class SamplingIn(Strict):
+    """A SAR converter's sampling input and what sits on the pin (settling check)."""
+
+    capacitance_f: Optional[float] = Field(None, gt=0, le=1e-6, description="Sampling capacitor, F (e.g. 1e-11 for 10 pF)")
+    switch_ohm: float = Field(0.0, ge=0, le=1e7, description="Sampling switch resistance, Ω")
+    acquisition_s: Optional[float] = Field(None, gt=0, le=10, description="Acquisition (sampling) time, s")
+    filter_f: Optional[float] = Field(None, gt=0, le=1, description="Capacitor from the pin to ground, F")
+    interval_s: Optional[float] = Field(None, gt=0, le=1e5, description="Time between conversions of this input, s")
+
+
+class ConverterIn(Strict):
+    """The converter: ideal N-bit transfer (IEEE Std 1241), ratiometric or with its own reference."""
+
+    bits: int = Field(12, ge=8, le=24, description="Resolution, 8 to 24 bits")
+    ratiometric: bool = Field(True, description="The reference is the divider's own supply (supply error cancels)")
+    vref_v: Optional[float] = Field(None, gt=0, le=1000, description="Reference voltage when not ratiometric, V")
+    input_ohm: Optional[Ohm] = Field(None, description="The converter input as a resistance to ground (a load on the divider)")
+    window: Optional[WindowIn] = Field(None, description="Usable input window: the output must stay inside it")
+    sampling: Optional[SamplingIn] = Field(None, description="SAR sampling input: settling and power-up checks")
+
+
+_PCT = {"ge": 0, "lt": 100}
+
+
+class PartTolerancesIn(Strict):
+    """± limits in percent of nominal (the converter offset in LSB); absent ones are zero."""
+
+    fixed_pct: float = Field(0.0, **_PCT, description="Fixed resistor")
+    sensor_pct: float = Field(0.0, **_PCT, description="Sensor resistance at its nominal point (R0 for an RTD)")
+    beta_pct: float = Field(0.0, **_PCT, description="B value (ntc_beta only)")
+    gamma_pct: float = Field(0.0, **_PCT, description="Slope γ (ldr only)")
+    supply_pct: float = Field(0.0, **_PCT, description="Divider supply")
+    vref_pct: float = Field(0.0, **_PCT, description="Converter reference (absolute reference only)")
+    adc_gain_pct: float = Field(0.0, ge=0, le=50, description="Converter gain error")
+    adc_offset_lsb: float = Field(0.0, ge=0, le=1e6, description="Converter offset error, LSB")
+
+
 class SolveIn(Strict):
     sensor: SensorIn
     circuit: CircuitIn
@@ -150,6 +197,11 @@ class SolveIn(Strict):
     objective: K.Objective = "swing"
     series: K.SeriesName = "E24"
     limits: LimitsIn = Field(default_factory=LimitsIn)
+    adc: Optional[ConverterIn] = Field(None, description="accuracy objective only: the converter (default 12-bit ratiometric); "
+                                 "its window, if any, is a constraint")
+    tolerances: Optional[PartTolerancesIn] = Field(None, description="accuracy objective only: part tolerances (absent: zero)")
+    dissipation_w_per_k: Optional[float] = Field(None, gt=0, le=10, description="accuracy objective only: the sensor's "
+                                                 "dissipation constant δ, W/K, for self-heating")
 
 
 class Metrics(BaseModel):
@@ -205,3 +257,28 @@ class PartOut(BaseModel):
     notes: str
     tolerances: dict[str, float] = Field(default_factory=dict)
     dissipation_w_per_k: Optional[float] = None
+    fitted: Optional[RangeIn] = Field(None, description="Stimulus range a fitted curve is valid over")
+    origin: str = Field("library", description="Where the part comes from (the demo library, a user import, ...)")
+
+
+class HealthOut(BaseModel):
+    status: Literal["ok"]
+    version: str
+
+
+class Problem(BaseModel):
+    field: str = Field(description="Dotted path of the offending field in the request ('' for the whole request)")
+    message: str
+
+
+class ErrorDetail(BaseModel):
+    status: int
+    message: str = Field(description="Starts with the offending field's dotted path")
+    field: str
+    problems: list[Problem]
+
+
+class ErrorOut(BaseModel):
+    """The one error shape of every endpoint (app/api/errors.py)."""
+
+    error: ErrorDetail

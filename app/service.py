@@ -11,11 +11,12 @@ from typing import Any
 
 import numpy as np
 
-from app import schemas, series
-from app.circuit import Circuit, respond
+from app import objectives, schemas, series
+from app.accuracy_inputs import accuracy_of
+from app.circuit import Circuit, needs_fixed, respond
 from app.errors import InputError
 from app.fitting import fit as fit_points
-from app.models import build_sensor
+from app.models import SENSOR_CLASSES, build_sensor
 from app.models.base import Sensor
 from app.parts import Library
 from app.solver import Limits, Problem, Solution, solve as solve_problem
@@ -60,6 +61,17 @@ def evaluate(req: schemas.EvaluateIn, library: Library) -> dict[str, Any]:
     }
 
 
+def check_range(sensor: Sensor, lo: float, hi: float) -> None:
+    """Refuse an empty, inverted or out-of-physics stimulus range, naming the end at fault."""
+    for name, value in (("range.min", lo), ("range.max", hi)):
+        if not np.isfinite(value):
+            raise InputError(name, "must be a finite number")
+    if hi <= lo:
+        raise InputError("range.max", f"must be above range.min ({lo:g}), got {hi:g}")
+    sensor.check_stimulus(np.array([lo]), field="range.min")
+    sensor.check_stimulus(np.array([hi]), field="range.max")
+
+
 def range_warnings(spec: Any, lo: float, hi: float, library: Library) -> list[str]:
     """Warn when a fitted part is used beyond the stimulus range it was fitted over."""
     if not isinstance(spec, schemas.PartRef):
@@ -68,11 +80,13 @@ def range_warnings(spec: Any, lo: float, hi: float, library: Library) -> list[st
     if part.fitted is None:
         return []
     f_lo, f_hi = part.fitted
+    unit = build_sensor(part.sensor).stimulus_unit
+    span = f"the {f_lo:g} .. {f_hi:g} {unit} range {part.name} was fitted over"
     out = []
     if lo < f_lo:
-        out.append(f"range.min {lo:g} is {f_lo - lo:g} below the {f_lo:g} .. {f_hi:g} range {part.name} was fitted over: extrapolated")
+        out.append(f"range.min {lo:g} {unit} is {f_lo - lo:g} {unit} below {span}: the curve is extrapolated")
     if hi > f_hi:
-        out.append(f"range.max {hi:g} is {hi - f_hi:g} above the {f_lo:g} .. {f_hi:g} range {part.name} was fitted over: extrapolated")
+        out.append(f"range.max {hi:g} {unit} is {hi - f_hi:g} {unit} above {span}: the curve is extrapolated")
     return out
 
 
@@ -80,7 +94,10 @@ def problem_of(req: Any, library: Library) -> Problem:
     sensor = sensor_of(req.sensor, library)
     circuit = circuit_of(req.circuit)
     limits = Limits(**req.limits.model_dump()) if getattr(req, "limits", None) else Limits()
-    return Problem(sensor, circuit, req.range.min, req.range.max, req.objective, limits)
+    if needs_fixed(sensor):  # a divider pot gets the core's own, clearer refusal
+        check_range(sensor, req.range.min, req.range.max)
+    accuracy = accuracy_of(req) if req.objective in objectives.BUDGET_OBJECTIVES else None
+    return Problem(sensor, circuit, req.range.min, req.range.max, req.objective, limits, accuracy)
 
 
 def solution_dict(sol: Solution) -> dict[str, Any]:
@@ -95,20 +112,38 @@ def solution_dict(sol: Solution) -> dict[str, Any]:
     }
 
 
-def solve(req: schemas.SolveIn, library: Library) -> dict[str, Any]:
+def solve_with_problem(req: schemas.SolveIn, library: Library) -> tuple[Problem, dict[str, Any]]:
+    """The solve response and the problem it answers (for callers that score more values)."""
     if req.circuit.fixed_ohm is not None:
         raise InputError("circuit.fixed_ohm", "must be absent: the solver chooses the fixed resistor")
-    out = solution_dict(solve_problem(problem_of(req, library), req.series))
+    problem = problem_of(req, library)
+    out = solution_dict(solve_problem(problem, req.series))
     out["warnings"] = range_warnings(req.sensor, req.range.min, req.range.max, library)
-    return out
+    return problem, out
+
+
+def solve(req: schemas.SolveIn, library: Library) -> dict[str, Any]:
+    return solve_with_problem(req, library)[1]
 
 
 def series_table(name: str) -> dict[str, Any]:
     return {"name": name, "tolerance_pct": series.tolerance_pct(name), "values": list(series.mantissas(name))}
 
 
+def _check_fit_stimulus(kind: str, stimulus: np.ndarray) -> None:
+    """Points outside the kind's physical range are refused before any model sees them."""
+    cls = SENSOR_CLASSES[kind]
+    bad = np.flatnonzero((stimulus < cls.stimulus_min) | (stimulus > cls.stimulus_max))
+    if bad.size:
+        raise InputError(f"points.{int(bad[0])}.stimulus",
+                         f"must lie within {cls.stimulus_min:g} .. {cls.stimulus_max:g} {cls.stimulus_unit} "
+                         f"for a {kind} sensor, got {stimulus[bad[0]]:g}")
+
+
 def fit(req: schemas.FitIn) -> dict[str, Any]:
-    result = fit_points(req.kind, [p.stimulus for p in req.points], [p.ohm for p in req.points])
+    stimulus = np.array([p.stimulus for p in req.points], dtype=float)
+    _check_fit_stimulus(req.kind, stimulus)
+    result = fit_points(req.kind, stimulus, [p.ohm for p in req.points])
     return {
         "sensor": result.sensor.to_dict(),
         "residuals": clean(result.residuals),

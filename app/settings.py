@@ -23,6 +23,7 @@ SETTINGS = {
     "data_dir": ("OHMPICK_DATA", "Folder for the SQLite store of saved designs and user parts"),
     "parts_dir": ("OHMPICK_PARTS", "Folder of part TOML files loaded as the library"),
     "max_body_bytes": ("OHMPICK_MAX_BODY", "Largest request body accepted, in bytes"),
+    "saves_per_minute": ("OHMPICK_SAVES_PER_MINUTE", "Designs and parts one client address may save per minute"),
 }
 
 
@@ -31,6 +32,7 @@ class Settings:
     data_dir: Path = field(default_factory=default_data_dir)
     parts_dir: Path = PARTS_DIR
     max_body_bytes: int = 1_000_000
+    saves_per_minute: int = 120
 
     @classmethod
     def from_env(cls, **overrides) -> "Settings":
@@ -40,7 +42,12 @@ class Settings:
             values["data_dir"] = Path(env["OHMPICK_DATA"])
         if env.get("OHMPICK_PARTS"):
             values["parts_dir"] = Path(env["OHMPICK_PARTS"])
-        if env.get("OHMPICK_MAX_BODY"):
-            values["max_body_bytes"] = int(env["OHMPICK_MAX_BODY"])
+        for name in ("max_body_bytes", "saves_per_minute"):
+            text = env.get(SETTINGS[name][0])
+            if text:
+                try:
+                    values[name] = int(text)
+                except ValueError:
+                    raise SystemExit(f"ohmpick: {SETTINGS[name][0]} must be a whole number, got {text!r}") from None
         values.update({k: v for k, v in overrides.items() if v is not None})
         return cls(**values)

@@ -7,15 +7,22 @@ resistances (k, 1) against the stimulus grid (n,) give vout (k, n).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Optional
 
 import numpy as np
 
 from app import constants as K
-from app import objectives, series
-from app.circuit import Circuit, needs_fixed, respond
+from app import budget, objectives, series
+from app.circuit import Circuit, divider_output, needs_fixed, respond
 from app.errors import InputError
 from app.models.base import Sensor
+
+
+# Candidates scored per broadcast in the search: 256 × 401 doubles (0.8 MB) per
+# temporary keeps them out of fresh-page allocation and near the cache; about
+# twice as fast as one 673 × 401 block, measured by bench/core_solve.py.
+RANK_BLOCK = 256
 
 
 @dataclass(frozen=True)
@@ -42,6 +49,8 @@ class Problem:
     hi: float
     objective: str = "swing"
     limits: Limits = field(default_factory=Limits)
+    # The accuracy objective's converter, tolerances and self-heating (app.budget.Accuracy).
+    accuracy: Optional[budget.Accuracy] = None
 
     def __post_init__(self):
         if not needs_fixed(self.sensor):
@@ -53,23 +62,78 @@ class Problem:
         if self.hi <= self.lo:
             raise InputError("range.max", f"must be above range.min ({self.lo:g}), got {self.hi:g}")
         self.sensor.check_stimulus(np.array([self.lo, self.hi]), field="range")
+        if self.objective in objectives.BUDGET_OBJECTIVES:
+            setup = self.accuracy or budget.Accuracy()
+            object.__setattr__(self, "accuracy", setup)
+            setup.limits(self.sensor, self.circuit)  # refuse bad tolerances before the search
 
-    @property
+    def _budget_rank(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Worst-case error over the range (candidates × corners × points) and window feasibility."""
+        design, limits = self.accuracy.design(self.sensor, self.circuit), self.accuracy.limits(self.sensor, self.circuit)
+        return budget.range_worst(design, self.lo, self.hi, limits, np.asarray(fixed_ohm, float))
+
+    @cached_property
     def grid(self) -> np.ndarray:
         return self.sensor.grid(self.lo, self.hi, K.OBJECTIVE_POINTS)
 
+    @cached_property
+    def _full_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(stimulus, axis, sensor Ω) on the whole objective grid, computed once per problem."""
+        s = self.grid
+        return s, self.sensor.to_axis(s), self.sensor.resistance(s)
+
+    @cached_property
+    def _scored_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(stimulus, axis, sensor Ω) that :meth:`rank` scores, computed once per problem.
+
+        The swing needs only the two ends unless a power limit needs every point.
+        """
+        s = self.grid
+        if self.objective == "swing" and self.limits.max_sensor_power_w is None:
+            s = s[[0, -1]]
+        return s, self.sensor.to_axis(s), self.sensor.resistance(s)
+
     def score(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
         """(scores, feasible mask, metrics), each (k,), for candidates (k,)."""
-        s = self.grid
-        axis = self.sensor.to_axis(s)
-        resp = respond(self.sensor, self.circuit, s, np.asarray(fixed_ohm, float)[:, None])
-        vout = resp.vout_v
-        found = objectives.score(self.objective, vout, axis)
-        extra = objectives.metrics(vout, axis, resp.sensor_power_w)
-        feasible = np.isfinite(found)
+        s, axis, rs = self._full_points
+        vout, power = divider_output(self.sensor, self.circuit, s, np.asarray(fixed_ohm, float)[:, None],
+                                     with_power=True, sensor_ohm=rs)
+        if self.objective in objectives.BUDGET_OBJECTIVES:
+            found, feasible = self._budget_rank(fixed_ohm)
+        else:
+            found = objectives.score(self.objective, vout, axis)
+            feasible = np.isfinite(found)
+        extra = objectives.metrics(vout, axis, power)
         if self.limits.max_sensor_power_w is not None:
             feasible &= extra["max_sensor_power_w"] <= self.limits.max_sensor_power_w
         return found, feasible, extra
+
+    def rank(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(scores, feasible mask) as :meth:`score`, computing only what they need.
+
+        Same numbers as :meth:`score`: Vout (and power only under a power
+        limit), no slopes or Thevenin; the swing needs only the two ends;
+        candidates go in blocks of :data:`RANK_BLOCK` rows.
+        """
+        limit = self.limits.max_sensor_power_w
+        if self.objective in objectives.BUDGET_OBJECTIVES:
+            found, feasible = self._budget_rank(fixed_ohm)
+            if limit is not None:
+                power = respond(self.sensor, self.circuit, self.grid, np.asarray(fixed_ohm, float)[:, None]).sensor_power_w
+                feasible &= np.max(power, axis=-1) <= limit
+            return found, feasible
+        s, axis, rs = self._scored_points
+        fixed = np.asarray(fixed_ohm, float)
+        found, feasible = np.empty(fixed.size), np.empty(fixed.size, bool)
+        for start in range(0, fixed.size, RANK_BLOCK):
+            part = slice(start, start + RANK_BLOCK)
+            vout, power = divider_output(self.sensor, self.circuit, s, fixed[part, None],
+                                         with_power=limit is not None, sensor_ohm=rs)
+            found[part] = objectives.score(self.objective, vout, axis)
+            feasible[part] = np.isfinite(found[part])
+            if limit is not None:
+                feasible[part] &= np.max(power, axis=-1) <= limit
+        return found, feasible
 
 
 @dataclass(frozen=True)
@@ -85,9 +149,9 @@ class Solution:
 
 
 def _ranked(problem: Problem, candidates: np.ndarray):
-    found, feasible, extra = problem.score(candidates)
+    found, feasible = problem.rank(candidates)
     ranked = np.where(feasible, objectives.loss(problem.objective, found), np.inf)
-    return found, ranked, extra
+    return found, ranked
 
 
 def _no_feasible() -> InputError:
@@ -103,7 +167,7 @@ def _zoom(problem: Problem, log_centre: float, half: float, best_loss: float) ->
     best_log = log_centre
     for _ in range(K.SOLVER_ZOOM_ROUNDS):
         trial = np.clip(np.linspace(best_log - half, best_log + half, K.SOLVER_ZOOM_POINTS), lo, hi)
-        _, ranked, _ = _ranked(problem, 10.0**trial)
+        _, ranked = _ranked(problem, 10.0**trial)
         i = int(np.argmin(ranked))
         if ranked[i] <= best_loss:
             best_log, best_loss = float(trial[i]), float(ranked[i])
@@ -116,7 +180,8 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
 
     The series values and a log grid are scored together in one broadcast;
     the grid's best point (or the series' own, whichever wins) seeds the
-    zoom, so the exact optimum is never worse than any series value.
+    zoom, so the exact optimum is never worse than any series value. A
+    series at least as dense as the grid (E48 and finer) is its own seed grid.
     """
     limits = problem.limits
     lo, hi = np.log10(limits.min_ohm), np.log10(limits.max_ohm)
@@ -127,33 +192,35 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
         values = series.values_between(series_name, limits.min_ohm, limits.max_ohm)
         if values.size == 0:
             raise InputError("limits", f"no {series_name} value lies between the limits")
-    pool = np.concatenate([values, grid])
-    found, ranked, extra = _ranked(problem, pool)
+    pool = values if values.size >= grid.size else np.concatenate([values, grid])
+    found, ranked = _ranked(problem, pool)
     if not np.isfinite(ranked).any():
         raise _no_feasible()
     top = int(np.argmin(ranked))
     exact, exact_loss = _zoom(problem, float(np.log10(pool[top])), 1.0 / K.SOLVER_GRID_PER_DECADE, float(ranked[top]))
-    exact_found, _, exact_extra = _ranked(problem, np.array([exact]))
+    exact_score = -objectives.DIRECTION[problem.objective] * exact_loss  # loss = −direction · score
 
     if series_name == "exact":
         picked = np.array([exact])
-        found, ranked, extra = exact_found, np.array([exact_loss]), exact_extra
+        found, ranked = np.array([exact_score]), np.array([exact_loss])
     else:
         picked = values
         n = values.size
-        found, ranked, extra = found[:n], ranked[:n], {k: v[:n] for k, v in extra.items()}
+        found, ranked = found[:n], ranked[:n]
         if not np.isfinite(ranked).any():
             raise _no_feasible()
     order = np.argsort(ranked, kind="stable")
     order = order[np.isfinite(ranked[order])][: K.SOLVER_CANDIDATES]
     best = int(order[0])
+    # The reported metrics need slopes and powers: computed for the winner only.
+    _, _, extra = problem.score(picked[best : best + 1])
     return Solution(
         objective=problem.objective,
         series=series_name,
         fixed_ohm=float(picked[best]),
         exact_ohm=exact,
         score=float(found[best]),
-        exact_score=float(exact_found[0]),
-        metrics={name: float(v[best]) for name, v in extra.items()},
+        exact_score=float(exact_score),
+        metrics={name: float(v[0]) for name, v in extra.items()},
         candidates=[(float(picked[i]), float(found[i])) for i in order],
     )

@@ -13,18 +13,22 @@ from fastapi import FastAPI
 from fastapi.staticfiles import StaticFiles
 
 from app import __version__
-from app.api import errors
-from app.api import budget, compare, core, designs, shelf, table, trip
-from app.pages import accuracy, alarms, firmware, routes, saved, shelf
+from app.api import budget, compare, core, designs, errors, table, trip
+from app.api import shelf as shelf_api
+from app.pages import accuracy, alarms, apidocs, firmware, routes, saved
+from app.pages import shelf as shelf_pages
 from app.parts import Library
+from app.ratelimit import SlidingWindow
+from app.security import SecurityHeaders
 from app.settings import Settings
 
 ROOT = Path(__file__).resolve().parent.parent
 STATIC_DIR = ROOT / "static"
 PLOTLY_DIR = Path(plotly.__file__).resolve().parent / "package_data"
 
-API_ROUTERS = (core.router, designs.router, shelf.router, compare.router, budget.router, table.router, trip.router)
-PAGE_ROUTERS = (routes.router, saved.router, shelf.router, accuracy.router, firmware.router, alarms.router)
+API_ROUTERS = (core.router, designs.router, shelf_api.router, compare.router, budget.router, table.router, trip.router)
+PAGE_ROUTERS = (routes.router, saved.router, shelf_pages.router, accuracy.router, firmware.router, alarms.router,
+                apidocs.router)
 
 
 class BodyLimit:
@@ -76,9 +80,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         title="ohmpick",
         version=__version__,
         description="Design sensor voltage dividers: choose the fixed resistor, check accuracy, make firmware tables.",
+        docs_url=None,  # the stock docs page loads its assets from the internet; /docs is our own
+        redoc_url=None,
     )
     app.state.settings = settings
     app.state.library = Library.load(settings.parts_dir)
+    app.state.save_limiter = SlidingWindow(settings.saves_per_minute, 60.0)
     errors.install(app)
     for router in API_ROUTERS:
         app.include_router(router)
@@ -89,4 +96,5 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for hook in (designs.on_startup,):
         hook(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(SecurityHeaders)
     return app

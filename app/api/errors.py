@@ -16,7 +16,16 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from app.errors import InputError
 from app.parts import PartNotFound
 
-from app.schemas import problems_from
+from app.schemas import ErrorOut, problems_from
+
+
+# Documented on every API router: any route can refuse a body or an id this way.
+ERROR_RESPONSES = {
+    404: {"model": ErrorOut, "description": "Unknown id (a part, a series, a design)"},
+    413: {"model": ErrorOut, "description": "The body is over the size limit"},
+    422: {"model": ErrorOut, "description": "Invalid input: the message names the field"},
+    429: {"model": ErrorOut, "description": "Too many saves from one client address in a minute"},
+}
 
 
 def error_body(status: int, problems: list[dict[str, str]]) -> dict[str, Any]:
@@ -48,6 +57,8 @@ def install(app: FastAPI) -> None:
     @app.exception_handler(StarletteHTTPException)
     async def _http(request: Request, exc: StarletteHTTPException):
         detail = exc.detail if isinstance(exc.detail, str) else "request refused"
+        if exc.status_code == 400:  # an unreadable body (e.g. not UTF-8) is bad input like any other
+            return error_response(422, "body", "the request body is not valid UTF-8 JSON")
         return error_response(exc.status_code, "", detail, headers=getattr(exc, "headers", None))
 
     @app.exception_handler(Exception)

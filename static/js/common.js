@@ -44,6 +44,19 @@ export function fmt(v, digits = 4, unit = "") {
   const text = Math.abs(v) >= 1e5 || (Math.abs(v) < 1e-3 && v !== 0) ? v.toExponential(digits - 1) : trim(v.toPrecision(digits));
   return unit ? `${text} ${unit}` : text;
 }
+// A value with an SI prefix on its unit: fmtSI(0.000486, "V") -> "486 µV",
+// fmtSI(0.0106, "V/°C") -> "10.6 mV/°C". Units that take no prefix (%) pass to fmt.
+const SI_STEPS = [[1e9, "G"], [1e6, "M"], [1e3, "k"], [1, ""], [1e-3, "m"], [1e-6, "µ"], [1e-9, "n"]];
+export function fmtSI(v, unit, digits = 4) {
+  if (v === null || v === undefined || !isFinite(v)) return "—";
+  if (!/^(V|W|A|Ω|F|Hz|s)(\/|$)/.test(unit)) return fmt(v, digits, unit);
+  if (v === 0) return `0 ${unit}`;
+  const a = Math.abs(v);
+  for (const [scale, p] of SI_STEPS) {
+    if (a >= scale * 0.99995) return `${trim((v / scale).toPrecision(digits))} ${p}${unit}`;
+  }
+  return `${trim((v / 1e-12).toPrecision(digits))} p${unit}`;
+}
 function trim(s) { return s.includes("e") ? s : s.replace(/(\.\d*?)0+$/, "$1").replace(/\.$/, ""); }
 
 export function debounce(fn, ms = 200) {
@@ -109,7 +122,9 @@ export function showProblem(box, err, form) {
   box.hidden = false;
   box.textContent = err.message;
   if (form && err.field) {
-    const input = form.querySelector(`[data-field="${CSS.escape(err.field)}"]`);
+    // Kinds may share a parameter name: the enabled (shown) input is the one meant.
+    const all = [...form.querySelectorAll(`[data-field="${CSS.escape(err.field)}"]`)];
+    const input = all.find(el => !el.disabled) || all[0];
     if (input) {
       input.setAttribute("aria-invalid", "true");
       const note = input.closest("label")?.querySelector(".field-error");
