@@ -23,5 +23,8 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(BIN)/python -m bench
 
+load: $(STAMP)
+	$(BIN)/python -m bench load_lan
+
 clean:
 	rm -rf $(VENV) .data

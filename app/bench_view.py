@@ -12,6 +12,10 @@ its output with and without the load instead (``mode == "divider"``).
 
 from __future__ import annotations
 
+import json
+import threading
+from collections import OrderedDict
+
 from typing import Any, Optional
 
 import numpy as np
@@ -206,8 +210,33 @@ def _figure(sensor: Sensor, traces: list[dict], y_title: str, y_format: str) -> 
     return fig
 
 
+_BUILT: "OrderedDict[tuple, str]" = OrderedDict()
+_BUILT_MAX = 256
+_BUILT_LOCK = threading.Lock()
+
+
 def build(req: BenchIn, library: Library) -> dict[str, Any]:
-    """Everything the Bench page shows for ``req`` (JSON-ready; non-finite numbers become null)."""
+    """Everything the Bench page shows for ``req`` (JSON-ready; non-finite numbers become null).
+
+    The result depends only on the inputs and the library, so it is kept (as JSON text, so no
+    caller can change a cached copy) for the home page's demo and saved designs read again and
+    again on a shared server. Errors are not kept.
+    """
+    key = (req.model_dump_json(), library.cache_key)
+    with _BUILT_LOCK:
+        text = _BUILT.get(key)
+        if text is not None:
+            _BUILT.move_to_end(key)
+    if text is None:
+        text = json.dumps(_build(req, library))
+        with _BUILT_LOCK:
+            _BUILT[key] = text
+            while len(_BUILT) > _BUILT_MAX:
+                _BUILT.popitem(last=False)
+    return json.loads(text)
+
+
+def _build(req: BenchIn, library: Library) -> dict[str, Any]:
     sensor = service.sensor_of(req.sensor, library)
     part = library.get(req.sensor.part) if isinstance(req.sensor, schemas.PartRef) else None
     circuit_in = req.circuit.model_copy(update={"fixed_ohm": None})

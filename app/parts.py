@@ -22,6 +22,7 @@ name and field; the good ones still load.
 
 from __future__ import annotations
 
+import itertools
 import math
 import re
 import tomllib
@@ -138,12 +139,19 @@ def read_part_file(path: Path) -> Part:
     return part_from_mapping(path.stem, data)
 
 
+_LIBRARIES = itertools.count()
+
+
 class Library:
     """Parts by id; ``problems`` lists the files that did not load and why."""
 
     def __init__(self, parts: dict[str, Part] | None = None, problems: list[str] | None = None):
         self.parts: dict[str, Part] = dict(parts or {})
         self.problems: list[str] = list(problems or [])
+        # (this library, its revision): bumped on every change, so results computed from the
+        # library can be cached by it.
+        self._serial = next(_LIBRARIES)
+        self.revision = 0
 
     @classmethod
     def load(cls, folder: Path = PARTS_DIR) -> "Library":
@@ -164,13 +172,19 @@ class Library:
         except KeyError:
             raise PartNotFound(part_id) from None
 
+    @property
+    def cache_key(self) -> tuple[int, int]:
+        return self._serial, self.revision
+
     def add(self, part: Part) -> None:
         self.parts[part.id] = part
+        self.revision += 1
 
     def remove(self, part_id: str) -> Part:
         """Take a part out (user parts on deletion); raises PartNotFound."""
         part = self.get(part_id)
         del self.parts[part_id]
+        self.revision += 1
         return part
 
     def all(self) -> list[Part]:

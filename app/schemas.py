@@ -266,6 +266,11 @@ class HealthOut(BaseModel):
     version: str
 
 
+class EchoOut(BaseModel):
+    status: Literal["ok"]
+    keys: list[str] = Field(description="The body's top-level keys, sorted (at most 100)")
+
+
 class Problem(BaseModel):
     field: str = Field(description="Dotted path of the offending field in the request ('' for the whole request)")
     message: str

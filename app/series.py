@@ -82,6 +82,8 @@ def _scaled(name: str, index: np.ndarray, decade: np.ndarray) -> np.ndarray:
 
 
 def _as_ohms(ohm, field: str) -> np.ndarray:
+    if type(ohm) is float and _MIN_OHM <= ohm <= _MAX_OHM:  # the common case, without numpy's overhead
+        return np.float64(ohm)
     try:
         arr = np.asarray(ohm, dtype=float)
     except (TypeError, ValueError):

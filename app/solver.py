@@ -57,11 +57,7 @@ class Problem:
             raise InputError("sensor.wiring", "a pot in divider wiring has no fixed resistor to choose")
         if self.objective not in objectives.DIRECTION:
             raise InputError("objective", f"must be one of {', '.join(objectives.DIRECTION)}")
-        if not (np.isfinite(self.lo) and np.isfinite(self.hi)):
-            raise InputError("range", "min and max must be finite numbers")
-        if self.hi <= self.lo:
-            raise InputError("range.max", f"must be above range.min ({self.lo:g}), got {self.hi:g}")
-        self.sensor.check_stimulus(np.array([self.lo, self.hi]), field="range")
+        self.sensor.check_range(self.lo, self.hi)
         if self.objective in objectives.BUDGET_OBJECTIVES:
             setup = self.accuracy or budget.Accuracy()
             object.__setattr__(self, "accuracy", setup)

@@ -6,7 +6,8 @@ Three contenders, measured side by side in one run, for each objective:
 * a plain-Python scalar loop (math module, no numpy) doing the same scoring,
   the model evaluated at every candidate × point (and, for reference, a
   variant with the 401 resistances hoisted out of the candidate loop):
-  timed on every 8th candidate and scaled to all 673;
+  timed on every 8th series value and scaled to every candidate solve
+  scores (the 673 series values, the refinement's points and the winner);
 * one bare numpy evaluation: Vout of all 673 × 401 in one broadcast, the
   objective, and the arg-best; no refinement, no checks.
 Targets: solve at least 50× faster than the loop, within 3× of bare numpy.
@@ -18,6 +19,7 @@ import math
 
 import numpy as np
 
+from app import constants as K
 from app import series
 from app.circuit import Circuit
 from app.models import build_sensor
@@ -95,7 +97,10 @@ def _best_of(objective: str, candidates, scores) -> float:
 def run() -> list[str]:
     values = series.values_between("E96", *LIMITS)
     subset = [float(v) for v in values[::SUBSAMPLE]]
-    scale = values.size / len(subset)
+    # The same work as solve: it scores the series values, then the refinement's
+    # candidates (rounds × points), then the winner once more for its metrics.
+    scored = values.size + K.SOLVER_ZOOM_ROUNDS * K.SOLVER_ZOOM_POINTS + 1
+    scale = scored / len(subset)
     lines = [
         f"E96 solve, {format_resistance(LIMITS[0])} – {format_resistance(LIMITS[1])}: {values.size} candidates"
         f" × {POINTS} points; beta NTC {format_resistance(R25)}, β {BETA:g} K at the bottom, {SUPPLY_V} V,"
@@ -122,7 +127,9 @@ def run() -> list[str]:
         )
     lines += [
         f"times in ms, medians of 21 runs (solve, numpy) and 3 (loops). * plain-Python loops timed on every"
-        f" {SUBSAMPLE}th candidate ({len(subset)} of {values.size}) and scaled by {values.size}/{len(subset)}.",
+        f" {SUBSAMPLE}th candidate ({len(subset)} of {values.size}) and scaled by {scored}/{len(subset)}: the"
+        f" {scored} candidates solve scores ({values.size} series values, {K.SOLVER_ZOOM_ROUNDS} × {K.SOLVER_ZOOM_POINTS}"
+        " refinement points, the winner); bare numpy scores the series values only.",
         "loop: the model (math.exp) evaluated at each candidate × point, as scalar code is usually written;"
         " hoisted: the 401 resistances computed once, as the numpy contenders do.",
         "The loops score all 401 points for every objective; solve needs only the two ends for a swing"

@@ -416,5 +416,5 @@ def test_bench_client_talks_to_a_real_server(live_server, monkeypatch):
     assert len({r for r in requests}) == 5  # every request distinct
     tally = asyncio.run(api_solve._turn(live_server.port, requests, 0.3))
     assert tally.latencies and tally.failures == 0
-    bad = [api_solve._request("POST", "/api/solve", b'{"sensor": {}}')]
+    bad = [api_solve.http_request("POST", "/api/solve", b'{"sensor": {}}')]
     assert asyncio.run(api_solve._turn(live_server.port, bad, 0.2)).failures > 0

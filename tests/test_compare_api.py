@@ -147,7 +147,7 @@ def test_two_to_six_sensors(client, count):
 
 @pytest.mark.parametrize("change, field", [
     ({"range": {"min": 100, "max": 0}}, "range.max"),
-    ({"range": {"min": 0, "max": 900}}, "range"),          # above the RTD's 850 °C
+    ({"range": {"min": 0, "max": 900}}, "range.max"),      # above the RTD's 850 °C
     ({"objective": "cheapest"}, "objective"),
     ({"series": "E7"}, "series"),
     ({"circuit": {"supply_v": -1}}, "circuit.supply_v"),

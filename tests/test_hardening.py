@@ -137,3 +137,14 @@ def test_user_text_is_escaped_on_every_page_that_shows_it(client):
 def test_serve_is_loopback_unless_asked():
     args = parser().parse_args(["serve"])
     assert args.host == "127.0.0.1" and args.lan is False
+
+
+def test_load_script_runs_and_counts(monkeypatch):
+    """bench/load_lan.py end to end on a short run (its figures are for the README command, not asserted)."""
+    from bench import load_lan
+
+    monkeypatch.setattr(load_lan, "SECONDS", 1.0)
+    monkeypatch.setattr(load_lan, "CLIENTS", 4)
+    lines = load_lan.run()
+    assert any(line.startswith("all") for line in lines)
+    assert "(0 errors" in lines[-1], lines

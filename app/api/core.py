@@ -11,8 +11,10 @@ from __future__ import annotations
 from typing import Any
 
 from fastapi import APIRouter, Request
+from starlette.concurrency import run_in_threadpool
 
 from app import __version__, schemas, service
+from app.objectives import BUDGET_OBJECTIVES
 from app import series as series_tables
 from app.api.errors import ERROR_RESPONSES, error_response
 from app.bench_view import BenchIn, BenchOut, build as build_bench
@@ -33,21 +35,33 @@ async def health() -> dict[str, Any]:
     return {"status": "ok", "version": __version__}
 
 
+@router.post("/echo", response_model=schemas.EchoOut, tags=["meta"], summary="Round-trip check for a JSON body")
+async def echo(body: dict[str, Any]) -> dict[str, Any]:
+    """Reads a JSON object and names its top-level keys, doing nothing else: a client can check
+    that its requests arrive whole, and it is the POST baseline of the throughput benchmark."""
+    return {"status": "ok", "keys": sorted(str(k)[:64] for k in body)[:100]}
+
+
 @router.post("/evaluate", response_model=schemas.EvaluateOut, responses=_ERRORS, tags=["divider"],
              summary="Output, Thevenin resistance, sensor power and slope at given stimulus values")
-def evaluate(body: schemas.EvaluateIn, request: Request) -> dict[str, Any]:
+async def evaluate(body: schemas.EvaluateIn, request: Request) -> dict[str, Any]:
     return service.evaluate(body, _library(request))
 
 
 @router.post("/solve", response_model=schemas.SolveOut, responses=_ERRORS, tags=["divider"],
              summary="Choose the fixed resistor (series value and exact optimum)")
-def solve(body: schemas.SolveIn, request: Request) -> dict[str, Any]:
+async def solve(body: schemas.SolveIn, request: Request) -> dict[str, Any]:
+    # On the event loop, not the thread pool: a solve is well under a millisecond of numpy,
+    # and the thread hand-off cost more than the work (bench/api_solve.py: 500 → 900 req/s).
+    # The accuracy objective scores every tolerance corner and can take far longer: thread pool.
+    if body.objective in BUDGET_OBJECTIVES:
+        return await run_in_threadpool(service.solve, body, _library(request))
     return service.solve(body, _library(request))
 
 
 @router.get("/series/{name}", response_model=schemas.SeriesOut, responses=_ERRORS, tags=["reference"],
             summary="IEC 60063 mantissas of one decade")
-def series(name: str) -> dict[str, Any]:
+async def series(name: str) -> dict[str, Any]:
     wanted = name.strip().upper()
     if wanted not in series_tables.SERIES_NAMES:
         return error_response(404, "name", f"no series {name!r}; known: {', '.join(series_tables.SERIES_NAMES)}")

@@ -103,6 +103,17 @@ class Sensor(ABC):
             )
         return s
 
+    def check_range(self, lo: float, hi: float) -> None:
+        """Refuse an empty, inverted or out-of-physics stimulus range, naming the end at fault."""
+        for name, value in (("range.min", lo), ("range.max", hi)):
+            if not math.isfinite(value):
+                raise InputError(name, "must be a finite number")
+            if not self.stimulus_min <= value <= self.stimulus_max:
+                raise InputError(name, f"must lie within {self.stimulus_min:g} .. {self.stimulus_max:g}"
+                                       f" {self.stimulus_unit} for a {self.kind} sensor, got {value:g}")
+        if hi <= lo:
+            raise InputError("range.max", f"must be above range.min ({lo:g}), got {hi:g}")
+
     @property
     def nominal_stimulus(self) -> float:
         """Where the part's resistance tolerance is specified."""

@@ -2,18 +2,17 @@
 // (debounced) and redraws. A bad value keeps the last good result on screen and
 // marks the field the server named. Inputs shown in other units than the API's
 // (pF, µs, mW/K, %) carry data-scale: the number sent is the one typed × scale.
-import { pageData, api, ApiError, fmt, fmtOhm, debounce, draw, wireTwins, showProblem, clearProblems } from "./common.js";
+import { pageData, api, fmt, fmtOhm, debounce, draw, wireTwins, showProblem, clearProblems } from "./common.js";
+import { parseValue, sensorForm } from "./sensor_form.js";
+import { latestPost } from "./latest.js";
 
 const data = pageData();
 const form = document.getElementById("acc-form");
 const $ = id => document.getElementById(id);
 const problemBox = $("acc-problem");
 const results = $("acc-results");
-const partSelect = $("acc-part");
-const kindSelect = $("acc-kind");
 const kinds = Object.fromEntries(data.kinds.map(k => [k.kind, k]));
 const parts = Object.fromEntries(data.parts.map(p => [p.id, p]));
-const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
 const RANGE_UNIT = { "°C": "°C", "lx": "lux", "travel": "fraction of travel" };
 const ERROR_UNIT = { "°C": "°C", "lx": "decades of lux", "travel": "of travel" };
 const CONTRIBUTORS = {
@@ -23,19 +22,16 @@ const CONTRIBUTORS = {
 };
 
 let last = null;
-let seq = 0;
 let shownKind = null;
 
 const field = name => form.querySelector(`[name="${CSS.escape(name)}"]`);
 
 // A number when the text is one (scaled to SI), otherwise the text so the server can name the field.
-function value(el) {
-  const s = String(el.value ?? "").trim();
-  if (s === "") return undefined;
-  if (!NUMBER.test(s)) return s;
-  const scale = el.dataset.scale ? Number(el.dataset.scale) : 1;
-  return +(Number(s) * scale).toPrecision(12);
-}
+const value = el => parseValue(el.value, el.dataset.scale ? Number(el.dataset.scale) : 1);
+const sensorFields = sensorForm({ form: "acc-form", part: "acc-part", kind: "acc-kind", notes: "acc-part-notes" },
+                                { kinds, parts }, { parse: value });
+const { partSelect, kindSelect } = sensorFields;
+
 function shown(el) { return !el.disabled && !el.closest("[hidden]"); }
 function setPath(obj, path, v) {
   const keys = path.split(".");
@@ -44,18 +40,8 @@ function setPath(obj, path, v) {
   o[keys[keys.length - 1]] = v;
 }
 
-function sensorInputs() {
-  if (partSelect.value) return { part: partSelect.value };
-  const sensor = { kind: kindSelect.value };
-  groupOf(kindSelect.value).querySelectorAll("[data-param]").forEach(el => {
-    const v = el.tagName === "SELECT" ? el.value : value(el);
-    if (v !== undefined) sensor[el.dataset.param] = v;
-  });
-  return sensor;
-}
-
 export function getInputs() {
-  const inputs = { sensor: sensorInputs(), circuit: {}, range: {}, adc: {}, tolerances: {}, monte_carlo: {} };
+  const inputs = { sensor: sensorFields.read(), circuit: {}, range: {}, adc: {}, tolerances: {}, monte_carlo: {} };
   form.querySelectorAll("[data-field]").forEach(el => {
     const path = el.dataset.field;
     if (path.startsWith("sensor.") || !shown(el)) return;
@@ -68,8 +54,6 @@ export function getInputs() {
   if (inputs.spec === undefined) inputs.spec = null;
   return inputs;
 }
-
-function groupOf(kind) { return form.querySelector(`.kind-fields[data-kind="${CSS.escape(kind)}"]`); }
 
 function setField(name, v, scale = 1) {
   const el = field(name);
@@ -84,8 +68,7 @@ function setField(name, v, scale = 1) {
 function syncVisibility() {
   const kind = kindSelect.value;
   const k = kinds[kind];
-  const wiring = partSelect.value ? parts[partSelect.value].sensor.wiring : groupOf(kind).querySelector('[data-param="wiring"]')?.value;
-  const divider = kind === "pot" && (wiring || "divider") === "divider";
+  const divider = sensorFields.isPotDivider();
   const ratiometric = field("adc.ratiometric").checked;
   const toggle = (sel, on) => form.querySelectorAll(sel).forEach(el => {
     el.hidden = !on;
@@ -110,23 +93,8 @@ function syncVisibility() {
 
 // Show the chosen kind's fields; a library part fills them read-only.
 function syncSensor(fromPart) {
+  const kind = sensorFields.show();
   const part = parts[partSelect.value];
-  if (part) kindSelect.value = part.kind;
-  const kind = kindSelect.value;
-  form.querySelectorAll(".kind-fields").forEach(g => {
-    const on = g.dataset.kind === kind;
-    g.hidden = !on;
-    g.querySelectorAll("input, select").forEach(el => { el.disabled = !on; });
-  });
-  groupOf(kind).querySelectorAll("[data-param]").forEach(el => {
-    if (part) {
-      const v = part.sensor[el.dataset.param];
-      el.value = v === undefined || v === null ? "" : String(v);
-    }
-    if (el.tagName === "SELECT") el.disabled = !!part; else el.readOnly = !!part;
-  });
-  kindSelect.disabled = !!part;
-  $("acc-part-notes").textContent = part ? part.notes : "";
   if (part && fromPart) {
     const t = part.tolerances || {};
     setField("tolerances.sensor_pct", t.sensor_pct ?? 0);
@@ -149,15 +117,7 @@ function getPath(obj, path) {
 
 // Put a set of inputs (the view's own, a saved design's) into the form; absent values clear their field.
 function fill(inputs) {
-  const sensor = inputs.sensor || {};
-  partSelect.value = sensor.part && parts[sensor.part] ? sensor.part : "";
-  if (!sensor.part && sensor.kind && kinds[sensor.kind]) {
-    kindSelect.value = sensor.kind;
-    groupOf(sensor.kind).querySelectorAll("[data-param]").forEach(el => {
-      const v = sensor[el.dataset.param];
-      if (v !== undefined && v !== null) el.value = String(v);
-    });
-  }
+  sensorFields.fill(inputs.sensor);
   const defaults = { "adc.bits": 12, "adc.ratiometric": true, "monte_carlo.samples": 10000, "monte_carlo.seed": 1,
                      "monte_carlo.distribution": "normal", "circuit.sensor_at": "bottom", "series": "E24" };
   form.querySelectorAll("[data-field]").forEach(el => {
@@ -299,25 +259,17 @@ export function render(r) {
 
 // ---- recomputing ----------------------------------------------------------------
 
-export async function recompute() {
-  const inputs = getInputs();
-  const mine = ++seq;
-  results.classList.add("busy");
-  try {
-    const result = await api("/api/view/accuracy", inputs);
-    if (mine !== seq) return;
+export const recompute = latestPost("/api/view/accuracy", getInputs, results, {
+  done(inputs, result) {
     clearProblems(form, problemBox);
     render(result);
     last = { inputs, result };
-  } catch (e) {
-    if (mine !== seq) return;
-    const problem = e instanceof ApiError ? e : { message: `Could not reach ohmpick (${e.message}).`, field: "" };
+  },
+  failed(problem) {
     showProblem(problemBox, problem, form);
     if (last) problemBox.append(" The results shown are for the last valid inputs.");
-  } finally {
-    if (mine === seq) results.classList.remove("busy");
-  }
-}
+  },
+});
 
 function save(name, type, text) {
   const url = URL.createObjectURL(new Blob([text], { type }));

@@ -5,23 +5,25 @@
 // Hooks for other pages' scripts:
 //   window.ohmpickBench.getInputs() / .load(inputs) / .last()
 //   document "bench:result" event, detail {inputs, result}, after each recompute.
-import { pageData, api, ApiError, fmt, fmtOhm, fmtSI, debounce, draw, wireTwins, showProblem, clearProblems } from "./common.js";
+import { pageData, api, ApiError, fmt, fmtSI, debounce, draw, wireTwins, showProblem, clearProblems } from "./common.js";
+import { parseValue as value, ensureOption, sensorForm } from "./sensor_form.js";
+import { latestPost } from "./latest.js";
 
 const data = pageData();
 const form = document.getElementById("bench-form");
 const problemBox = document.getElementById("bench-problem");
 const results = document.getElementById("bench-results");
-const partSelect = document.getElementById("bench-part");
-const kindSelect = document.getElementById("bench-kind");
 const objectiveSelect = document.getElementById("bench-objective");
 const $ = id => document.getElementById(id);
 const kinds = Object.fromEntries(data.kinds.map(k => [k.kind, k]));
 const parts = Object.fromEntries(data.parts.map(p => [p.id, p]));
 const objectives = Object.fromEntries(data.objectives.map(o => [o.value, o]));
-const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+const sensorFields = sensorForm(
+  { form: "bench-form", part: "bench-part", kind: "bench-kind", notes: "bench-part-notes", lock: "bench-part-lock" },
+  { kinds, parts }, { ohmDigits: 4 });
+const { partSelect, kindSelect, groupOf } = sensorFields;
 
 let last = null;  // {inputs, result} of the last good recompute
-let seq = 0;
 let shownKind = kindSelect.value;  // the kind whose fields are on screen
 
 // ---- reading and writing the form ------------------------------------------
@@ -29,30 +31,12 @@ let shownKind = kindSelect.value;  // the kind whose fields are on screen
 const field = name => form.querySelector(`[name="${CSS.escape(name)}"]`);
 const text = name => (field(name)?.value ?? "").trim();
 
-// A number when the text is one; otherwise the text, so the server can name the field.
-function value(raw) {
-  const s = String(raw ?? "").trim();
-  if (s === "") return undefined;
-  return NUMBER.test(s) ? Number(s) : s;
-}
 function put(obj, key, v) { if (v !== undefined) obj[key] = v; }
-
-function groupOf(kind) { return form.querySelector(`.kind-fields[data-kind="${CSS.escape(kind)}"]`); }
-
-function sensorInputs() {
-  if (partSelect.value) return { part: partSelect.value };
-  const kind = kindSelect.value;
-  const sensor = { kind };
-  groupOf(kind).querySelectorAll("[data-param]").forEach(el => {
-    put(sensor, el.dataset.param, el.tagName === "SELECT" ? el.value : value(el.value));
-  });
-  return sensor;
-}
 
 export function getInputs() {
   const inputs = {};
   put(inputs, "name", text("name") || undefined);
-  inputs.sensor = sensorInputs();
+  inputs.sensor = sensorFields.read();
   const circuit = { supply_v: value(text("circuit.supply_v")), sensor_at: field("circuit.sensor_at").value };
   put(circuit, "load_ohm", value(text("circuit.load_ohm")));
   put(circuit, "parallel_ohm", value(text("circuit.parallel_ohm")));
@@ -79,11 +63,6 @@ function setValue(name, v) {
   if (el) el.value = v === undefined || v === null ? "" : String(v);
 }
 
-function ensureOption(select, v, label) {
-  if (![...select.options].some(o => o.value === v)) select.add(new Option(label || v, v));
-  select.value = v;
-}
-
 function setRangeUnit(kind) {
   const unit = { "°C": "°C", "lx": "lux", "travel": "fraction of travel" }[kinds[kind]?.stimulus_unit] || "";
   form.querySelectorAll('[name="range.min"], [name="range.max"]').forEach(el => {
@@ -94,26 +73,7 @@ function setRangeUnit(kind) {
 
 // Show the chosen kind's fields; a library part fills them read-only.
 function syncSensor() {
-  const part = parts[partSelect.value];
-  if (part) kindSelect.value = part.kind;
-  const kind = kindSelect.value;
-  form.querySelectorAll(".kind-fields").forEach(g => {
-    const on = g.dataset.kind === kind;
-    g.hidden = !on;
-    g.querySelectorAll("input, select").forEach(el => { el.disabled = !on; });
-  });
-  const group = groupOf(kind);
-  group.querySelectorAll("[data-param]").forEach(el => {
-    if (part) {
-      const v = part.sensor[el.dataset.param];
-      const ohm = el.dataset.param.endsWith("_ohm") && typeof v === "number";
-      el.value = v === undefined || v === null ? "" : ohm ? fmtOhm(v, 4) : String(v);
-    }
-    if (el.tagName === "SELECT") el.disabled = !!part; else el.readOnly = !!part;
-  });
-  kindSelect.disabled = !!part;
-  $("bench-part-lock").hidden = !part;
-  $("bench-part-notes").textContent = part ? part.notes : "";
+  const kind = sensorFields.show();
   setRangeUnit(kind);
   shownKind = kind;
   const o = objectives[objectiveSelect.value];
@@ -135,20 +95,7 @@ function resetRangeIfUnitChanged(before) {
 function fill(inputs) {
   inputs = inputs || {};
   setValue("name", inputs.name);
-  const sensor = inputs.sensor || {};
-  if (sensor.part) {
-    ensureOption(partSelect, sensor.part, `${sensor.part} (not in the library)`);
-  } else {
-    partSelect.value = "";
-    if (sensor.kind && kinds[sensor.kind]) {
-      kindSelect.value = sensor.kind;
-      groupOf(sensor.kind).querySelectorAll("[data-param]").forEach(el => {
-        const f = kinds[sensor.kind].fields.find(x => x.name === el.dataset.param);
-        const v = sensor[el.dataset.param];
-        el.value = v !== undefined && v !== null ? String(v) : (f && f.default !== null ? String(f.default) : "");
-      });
-    }
-  }
+  sensorFields.fill(inputs.sensor, { keepUnknownPart: true, resetMissing: true });
   const c = inputs.circuit || {};
   setValue("circuit.supply_v", c.supply_v);
   field("circuit.sensor_at").value = c.sensor_at === "top" ? "top" : "bottom";
@@ -347,21 +294,15 @@ export function render(result) {
 
 // ---- recomputing -----------------------------------------------------------
 
-export async function recompute() {
-  const inputs = getInputs();
-  const mine = ++seq;
-  results.classList.add("busy");
-  try {
-    const result = await api("/api/view/bench", inputs);
-    if (mine !== seq) return;
+export const recompute = latestPost("/api/view/bench", getInputs, results, {
+  done(inputs, result) {
     clearProblems(form, problemBox);
     $("bench-stale").hidden = true;
     render(result);
     last = { inputs, result };
     document.dispatchEvent(new CustomEvent("bench:result", { detail: { inputs, result } }));
-  } catch (err) {
-    if (mine !== seq) return;
-    const problem = err instanceof ApiError ? err : { message: `Could not reach ohmpick (${err.message}).`, field: "" };
+  },
+  failed(problem) {
     showProblem(problemBox, problem, form);
     // A marked field folded away in the limits is unfolded so the message shows.
     const marked = form.querySelector('[aria-invalid="true"]');
@@ -372,10 +313,8 @@ export async function recompute() {
       problemBox.append(" The results shown are for the last valid inputs.");
       $("bench-stale").hidden = false;
     }
-  } finally {
-    if (mine === seq) results.classList.remove("busy");
-  }
-}
+  },
+});
 
 const soon = debounce(recompute, 250);
 

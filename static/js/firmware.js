@@ -3,6 +3,8 @@
 // save the answer as a file. A bad value keeps the last good result on screen
 // and marks the field the server named.
 import { pageData, api, ApiError, fmt, debounce, draw, wireTwins, showProblem, clearProblems } from "./common.js";
+import { parseValue as value, sensorForm } from "./sensor_form.js";
+import { latestPost } from "./latest.js";
 
 const data = pageData();
 const $ = id => document.getElementById(id);
@@ -10,51 +12,21 @@ const form = $("fw-form");
 const root = document.querySelector(".workspace");  // fields live in the form and the download card
 const problemBox = $("fw-problem");
 const results = $("fw-results");
-const partSelect = $("fw-part");
-const kindSelect = $("fw-kind");
 const parts = Object.fromEntries(data.parts.map(p => [p.id, p]));
-const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+const kinds = Object.fromEntries(data.kinds.map(k => [k.kind, k]));
+const sensorFields = sensorForm({ form: "fw-form", part: "fw-part", kind: "fw-kind", notes: "fw-part-notes" },
+                                { kinds, parts }, { selectFirst: true });
+const { partSelect, currentKind, isPotDivider } = sensorFields;
 const QUANTITY = { "°C": "t (°C)", "decade": "log10(lux)", "travel": "position" };
 const UNIT_TEXT = { "°C": "°C", "lx": "lux", "travel": "travel", "decade": "decades of lux" };
 
 let last = null;  // {inputs, view} of the last good recompute
-let seq = 0;
 let shownKind = null;  // whose units the range and bound fields hold
 
 const field = name => root.querySelector(`[name="${CSS.escape(name)}"]`);
 const text = name => (field(name)?.value ?? "").trim();
 
-// A number when the text is one; otherwise the text, so the server can name the field.
-function value(raw) {
-  const s = String(raw ?? "").trim();
-  if (s === "") return undefined;
-  return NUMBER.test(s) ? Number(s) : s;
-}
 function put(obj, key, v) { if (v !== undefined) obj[key] = v; }
-
-const groupOf = kind => form.querySelector(`.kind-fields[data-kind="${CSS.escape(kind)}"]`);
-
-function currentKind() {
-  const part = parts[partSelect.value];
-  return part ? part.kind : kindSelect.value;
-}
-function isPotDivider() {
-  const part = parts[partSelect.value];
-  if (part) return part.kind === "pot" && (part.sensor.wiring || "divider") === "divider";
-  if (kindSelect.value !== "pot") return false;
-  const wiring = groupOf("pot").querySelector('[data-param="wiring"]');
-  return !wiring || wiring.value === "divider";
-}
-
-function sensorInputs() {
-  if (partSelect.value) return { part: partSelect.value };
-  const kind = kindSelect.value;
-  const sensor = { kind };
-  groupOf(kind).querySelectorAll("[data-param]").forEach(el => {
-    put(sensor, el.dataset.param, el.tagName === "SELECT" ? el.value : value(el.value));
-  });
-  return sensor;
-}
 
 export function getInputs() {
   const circuit = { supply_v: value(text("circuit.supply_v")), sensor_at: field("circuit.sensor_at").value };
@@ -64,7 +36,7 @@ export function getInputs() {
   const ratiometric = field("adc.ratiometric").value === "true";
   const adc = { bits: value(text("adc.bits")), ratiometric };
   if (!ratiometric) put(adc, "vref_v", value(text("adc.vref_v")));
-  const inputs = { sensor: sensorInputs(), circuit, adc, step: value(text("step")), table: field("table").value };
+  const inputs = { sensor: sensorFields.read(), circuit, adc, step: value(text("step")), table: field("table").value };
   const lo = value(text("range.min")), hi = value(text("range.max"));
   if (lo !== undefined || hi !== undefined) {
     const d = data.defaults[currentKind()].range;
@@ -79,23 +51,7 @@ export function getInputs() {
 
 // Show the chosen kind's fields; a library part fills them read-only.
 function syncForm() {
-  const part = parts[partSelect.value];
-  if (part) kindSelect.value = part.kind;
-  const kind = kindSelect.value;
-  form.querySelectorAll(".kind-fields").forEach(g => {
-    const on = g.dataset.kind === kind;
-    g.hidden = !on;
-    g.querySelectorAll("input, select").forEach(el => { el.disabled = !on; });
-  });
-  groupOf(kind).querySelectorAll("[data-param]").forEach(el => {
-    if (part) {
-      const v = part.sensor[el.dataset.param];
-      el.value = v === undefined || v === null ? (el.tagName === "SELECT" ? el.options[0].value : "") : String(v);
-    }
-    if (el.tagName === "SELECT") el.disabled = !!part; else el.readOnly = !!part;
-  });
-  kindSelect.disabled = !!part;
-  $("fw-part-notes").textContent = part ? part.notes : "";
+  const kind = sensorFields.show();
   const d = data.defaults[kind];
   if (shownKind && data.defaults[shownKind].error_unit !== d.error_unit) {
     // Values typed for another quantity mean nothing here.
@@ -228,23 +184,14 @@ export function render(view) {
 
 // ---- recomputing and downloading -----------------------------------------
 
-export async function recompute() {
-  const inputs = getInputs();
-  const mine = ++seq;
-  results.classList.add("busy");
-  try {
-    const view = await api("/api/table/view", inputs);
-    if (mine !== seq) return;
+export const recompute = latestPost("/api/table/view", getInputs, results, {
+  done(inputs, view) {
     clearProblems(root, problemBox);
     render(view);
     last = { inputs, view };
-  } catch (e) {
-    if (mine !== seq) return;
-    showProblem(problemBox, e instanceof ApiError ? e : { message: `Could not reach ohmpick (${e.message}).`, field: "" }, root);
-  } finally {
-    if (mine === seq) results.classList.remove("busy");
-  }
-}
+  },
+  failed(problem) { showProblem(problemBox, problem, root); },
+});
 
 function save(name, type, body) {
   const url = URL.createObjectURL(new Blob([body], { type }));
