@@ -28,6 +28,7 @@ MAX_BODY_BYTES = 1_000_000
 # Solver search: log-spaced grid density and zoom refinement.
 SOLVER_GRID_PER_DECADE = 24
 SOLVER_ZOOM_POINTS = 41
+# Each round shrinks the bracket 20×: four rounds from 1/24 decade leave steps of ~6e-7 in R.
 SOLVER_ZOOM_ROUNDS = 4
 SOLVER_CANDIDATES = 5
 

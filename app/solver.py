@@ -157,12 +157,15 @@ def _no_feasible() -> InputError:
     )
 
 
+_ZOOM_OFFSETS = np.linspace(-1.0, 1.0, K.SOLVER_ZOOM_POINTS)
+
+
 def _zoom(problem: Problem, log_centre: float, half: float, best_loss: float) -> tuple[float, float]:
     """Shrink a bracket around the best point, round after round (derivative-free)."""
     lo, hi = np.log10(problem.limits.min_ohm), np.log10(problem.limits.max_ohm)
     best_log = log_centre
     for _ in range(K.SOLVER_ZOOM_ROUNDS):
-        trial = np.clip(np.linspace(best_log - half, best_log + half, K.SOLVER_ZOOM_POINTS), lo, hi)
+        trial = np.clip(best_log + half * _ZOOM_OFFSETS, lo, hi)
         _, ranked = _ranked(problem, 10.0**trial)
         i = int(np.argmin(ranked))
         if ranked[i] <= best_loss:
