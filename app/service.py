@@ -13,7 +13,7 @@ import numpy as np
 
 from app import objectives, schemas, series
 from app.accuracy_inputs import accuracy_of
-from app.circuit import Circuit, needs_fixed, respond
+from app.circuit import Circuit, respond
 from app.errors import InputError
 from app.fitting import fit as fit_points
 from app.models import SENSOR_CLASSES, build_sensor

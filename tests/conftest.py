@@ -77,3 +77,17 @@ def browser():
 
     with chromium() as b:
         yield b
+
+
+@pytest.fixture
+def request_file(tmp_path):
+    """Write a CLI request body (dict or raw text) to a file and return its path."""
+    import json
+
+    def write(body, name="request.json"):
+        path = tmp_path / name
+        path.write_text(body if isinstance(body, str) else json.dumps(body), encoding="utf-8")
+        return str(path)
+
+    return write
+

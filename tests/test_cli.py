@@ -9,28 +9,13 @@ import math
 import pytest
 
 from app import cli, serve
+from tests.tools import run_cli as run
 
 NTC = {"kind": "ntc_beta", "r_nominal_ohm": "10k", "beta_k": 3950}
 EVALUATE = {"sensor": NTC, "circuit": {"supply_v": 3.3, "fixed_ohm": "10k"}, "stimulus": [0, 25, 50]}
 SOLVE = {"sensor": {"part": "demo-ntc-10k-b3950"}, "circuit": {"supply_v": 3.3, "sensor_at": "bottom"},
          "range": {"min": 0, "max": 100}, "objective": "swing", "series": "E24"}
 FIT = {"kind": "ntc_beta", "points": [{"stimulus": 25, "ohm": "10k"}, {"stimulus": 85, "ohm": "1k1"}]}
-
-
-@pytest.fixture
-def request_file(tmp_path):
-    def write(body, name="request.json"):
-        path = tmp_path / name
-        path.write_text(body if isinstance(body, str) else json.dumps(body), encoding="utf-8")
-        return str(path)
-
-    return write
-
-
-def run(capsys, *argv):
-    code = cli.main(list(argv))
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def test_evaluate_json_is_the_endpoints_json(capsys, request_file, client):

@@ -13,7 +13,6 @@ import os
 import tempfile
 from pathlib import Path
 
-import pytest
 import schemathesis
 from hypothesis import HealthCheck, settings
 from schemathesis.specs.openapi.checks import (

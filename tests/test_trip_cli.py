@@ -7,28 +7,12 @@ import json
 
 import pytest
 
-from app import cli
 from app.units import format_resistance
+from tests.tools import run_cli as run
 
 ALARM = {"sensor": {"part": "demo-ntc-10k-b3950"}, "supply_v": 3.3, "sensor_at": "bottom",
          "target": {"trip": 60, "release": 55}, "series": "E24",
          "tolerances": {"resistor_pct": 1}, "adjust": {"min": 50, "max": 70}}
-
-
-@pytest.fixture
-def request_file(tmp_path):
-    def write(body):
-        path = tmp_path / "trip.json"
-        path.write_text(body if isinstance(body, str) else json.dumps(body), encoding="utf-8")
-        return str(path)
-
-    return write
-
-
-def run(capsys, *argv):
-    code = cli.main(list(argv))
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def test_json_is_the_endpoints_json(capsys, request_file, client):

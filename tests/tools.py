@@ -32,3 +32,12 @@ def require_binary(path_or_name: str) -> str:
     if in_ci():
         pytest.fail(f"CI=true but {reason}", pytrace=False)
     pytest.skip(reason)
+
+
+def run_cli(capsys, *argv: str) -> tuple[int, str, str]:
+    """Run ``ohmpick`` in-process: (exit status, stdout, stderr)."""
+    from app import cli
+
+    code = cli.main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err

@@ -28,7 +28,6 @@ from app.adc import Adc
 from app.api.design_views import register
 from app.circuit import respond
 from app.errors import InputError
-from app.models import SENSOR_CLASSES
 from app.models.base import Sensor
 from app.parts import Library
 from app.solver import Limits, Problem, solve as solve_problem

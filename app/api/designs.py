@@ -110,20 +110,6 @@ class Created(BaseModel):
     owner_token: str = Field(description=f"Secret needed (header {OWNER_HEADER}) to rename or delete; shown once")
 
 
-class DesignOut(BaseModel):
-    id: str
-    name: str
-    notes: str
-    kind: str
-    view: str
-    created: str
-    updated: str
-    url: str
-    inputs: dict[str, Any]
-    result: Optional[dict[str, Any]] = Field(description="The solve response, recomputed from the inputs")
-    problem: Optional[dict[str, str]] = Field(None, description="Why the stored inputs no longer recompute")
-
-
 class DesignSummary(BaseModel):
     id: str
     name: str
@@ -133,6 +119,12 @@ class DesignSummary(BaseModel):
     created: str
     updated: str
     url: str
+
+
+class DesignOut(DesignSummary):
+    inputs: dict[str, Any]
+    result: Optional[dict[str, Any]] = Field(description="The solve response, recomputed from the inputs")
+    problem: Optional[dict[str, str]] = Field(None, description="Why the stored inputs no longer recompute")
 
 
 class DesignList(BaseModel):

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from app.errors import InputError
-from app.models.base import Sensor, as_array, check_resistance, check_finite, check_positive
+from app.models.base import Sensor, as_array, check_resistance, check_finite
 
 
 @dataclass(frozen=True)
