@@ -133,3 +133,23 @@ def test_bench_accuracy_card_and_handover(browser, live_server):
     assert page.input_value('[name="dissipation_w_per_k"]') == "1.5"
     assert log.console_errors == [] and log.page_errors == []
     assert log.outside() == []
+
+
+def test_bench_ranks_by_accuracy_with_the_cards_inputs(browser, live_server):
+    """The accuracy objective on the Bench: the card's converter feeds the ranking, and a
+    loaded design brings its own converter and tolerances back into the card."""
+    page, log = open_page(browser)
+    page.goto(f"{live_server.url}/")
+    page.wait_for_selector("#bench-output .main-svg")
+    page.select_option("#bench-objective", "accuracy")
+    expect(page.locator("#bench-accuracy-summary")).to_contain_text("worst case")
+    inputs = page.evaluate("() => window.ohmpickBench.getInputs()")
+    assert inputs["objective"] == "accuracy" and inputs["adc"]["bits"] == 12
+    design = dict(inputs, adc={"bits": 16, "ratiometric": True}, tolerances={"fixed_pct": 0.1, "sensor_pct": 0.5})
+    page.evaluate("(d) => window.ohmpickBench.load(d)", design)
+    expect(page.locator('[data-field="adc.bits"]')).to_have_value("16")
+    expect(page.locator('[data-field="tolerances.fixed_pct"]')).to_have_value("0.1")
+    page.wait_for_function("() => window.ohmpickBench.last().inputs.adc && window.ohmpickBench.last().inputs.adc.bits === 16")
+    result = page.evaluate("() => window.ohmpickBench.last().result")
+    assert result["solve"]["objective"] == "accuracy" and result["recommended"]["fixed_ohm"] > 0
+    assert log.console_errors == [] and log.page_errors == [] and log.outside() == []

@@ -86,7 +86,23 @@ function objectiveIsAccuracy() {
   return !!select && select.value === "accuracy";
 }
 
-window.ohmpickAccuracyExtras = { get: () => (card && objectiveIsAccuracy() ? settings() : null) };
+// A saved or copied design brings its own converter and tolerances back into the card.
+function restore(inputs) {
+  if (!card || !inputs) return;
+  const put = (name, v, scale = 1) => {
+    if (v === undefined || v === null) return;
+    field(name).value = typeof v === "number" ? String(+(v * scale).toPrecision(6)) : String(v);
+    touched.add(name);
+  };
+  const adc = inputs.adc || {};
+  put("adc.bits", adc.bits);
+  if (adc.ratiometric !== undefined) field("adc.ratiometric").checked = !!adc.ratiometric;
+  put("adc.vref_v", adc.vref_v);
+  for (const [k, v] of Object.entries(inputs.tolerances || {})) if (field(`tolerances.${k}`)) put(`tolerances.${k}`, v);
+  put("dissipation_w_per_k", inputs.dissipation_w_per_k, 1e3);  // the card shows mW/K
+}
+
+window.ohmpickAccuracyExtras = { get: () => (card && objectiveIsAccuracy() ? settings() : null), set: restore };
 
 function showKindFields(kind) {
   field("tolerances.beta_pct").closest("label").hidden = kind !== "ntc_beta";

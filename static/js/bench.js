@@ -118,6 +118,7 @@ function fill(inputs) {
 
 export function load(inputs) {
   fill(inputs);
+  window.ohmpickAccuracyExtras?.set?.(inputs);
   return recompute();
 }
 
