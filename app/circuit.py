@@ -10,6 +10,7 @@ broadcasts to (n,) or (k, n). Units: Ω, V, W, V per axis unit.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Optional
 
@@ -116,6 +117,30 @@ def divider_output(sensor: Sensor, circuit: Circuit, stimulus, fixed_ohm=None, w
     vout = np.divide(rb_loaded, total, out=None if with_power else total)
     vout *= circuit.supply_v
     return vout, (_sensor_power(sensor, circuit, rs, rt, rb, total) if with_power else None)
+
+
+def swing_peak_ohm(circuit: Circuit, r_lo: float, r_hi: float) -> float:
+    """The fixed resistor with the largest |Vout(hi) − Vout(lo)|, in closed form (may be ``inf``).
+
+    ``r_lo``, ``r_hi``: the sensor's resistance at the two ends. With A the
+    arm holding the sensor (its parallel resistor, and the load when it sits
+    at the bottom) and B the other, Vout/Vs is A/(A + B) or B/(A + B), and
+    the swing B·|A₁ − A₂| / ((A₁ + B)(A₂ + B)) rises then falls in B with its
+    peak at B = sqrt(A₁·A₂). B grows with the fixed resistor, so the swing
+    is unimodal in it too and a clamp to the limits finds the best value.
+    With the load across a fixed bottom arm, B = Rf ∥ RL never reaches RL:
+    a peak at or above RL means "as large as allowed" (``inf``).
+    """
+    a1, a2 = r_lo, r_hi
+    if circuit.parallel_ohm is not None:
+        a1, a2 = (a * circuit.parallel_ohm / (a + circuit.parallel_ohm) for a in (a1, a2))
+    load = circuit.load_ohm
+    if circuit.sensor_at == "bottom" and load is not None:
+        a1, a2 = (a * load / (a + load) for a in (a1, a2))
+    peak = math.sqrt(a1 * a2)
+    if circuit.sensor_at == "bottom" or load is None:
+        return peak
+    return peak * load / (load - peak) if peak < load else math.inf
 
 
 def respond(sensor: Sensor, circuit: Circuit, stimulus, fixed_ohm=None) -> Response:

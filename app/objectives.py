@@ -19,18 +19,25 @@ def swing_v(vout: np.ndarray) -> np.ndarray:
     return np.abs(vout[..., -1] - vout[..., 0])
 
 
+# The metrics run once per request for the winner (and per block in the search), where
+# numpy's per-call overhead outweighs the arithmetic: ndarray methods rather than the
+# module functions, axis facts as Python floats, and no errstate context.
+
 def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
     """End-point nonlinearity: worst distance from the chord, % of the swing."""
-    frac = (axis - axis[0]) / (axis[-1] - axis[0])
+    a0 = float(axis[0])
+    frac = (axis - a0) / (float(axis[-1]) - a0)
     start = vout[..., 0]
     # gap = vout − (chord − start), one (k, n) buffer; the worst distance from
     # the chord is then the larger of max(gap) − start and start − min(gap).
     gap = (vout[..., -1:] - vout[..., :1]) * frac
     np.subtract(vout, gap, out=gap)
-    worst = np.maximum(np.max(gap, axis=-1) - start, start - np.min(gap, axis=-1))
+    worst = np.maximum(gap.max(axis=-1) - start, start - gap.min(axis=-1))
     span = swing_v(vout)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(span > 0, worst / span * 100.0, np.inf)
+    out = np.full(span.shape, np.inf)
+    np.divide(worst, span, out=out, where=span > 0)
+    out *= 100.0
+    return out
 
 
 def min_sensitivity(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
@@ -41,13 +48,17 @@ def min_sensitivity(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
     directly needs three passes over the (k, n) array instead of eight.
     Uneven axes (not produced by Sensor.grid) go through numpy.gradient.
     """
-    step = np.diff(axis)
-    if vout.shape[-1] < 3 or np.ptp(step) > 1e-9 * abs(step[0]):
-        return np.min(np.abs(np.gradient(vout, axis, axis=-1)), axis=-1)
+    n = vout.shape[-1]
+    step = axis[1:] - axis[:-1] if n >= 3 else None
+    h0, h1 = (float(step[0]), float(step[-1])) if n >= 3 else (0.0, 0.0)
+    if n < 3 or float(step.max()) - float(step.min()) > 1e-9 * abs(h0):
+        return np.abs(np.gradient(vout, axis, axis=-1)).min(axis=-1)
+    # Mean of axis[i+2] − axis[i] over the interior, by telescoping.
+    wide = (float(axis[-1]) + float(axis[-2]) - float(axis[1]) - float(axis[0])) / (n - 2)
     central = np.subtract(vout[..., 2:], vout[..., :-2])
-    inner = np.min(np.abs(central, out=central), axis=-1) / (axis[2:] - axis[:-2]).mean()
-    first = np.abs(vout[..., 1] - vout[..., 0]) / step[0]
-    last = np.abs(vout[..., -1] - vout[..., -2]) / step[-1]
+    inner = np.abs(central, out=central).min(axis=-1) / wide
+    first = np.abs(vout[..., 1] - vout[..., 0]) / h0
+    last = np.abs(vout[..., -1] - vout[..., -2]) / h1
     return np.minimum(inner, np.minimum(first, last))
 
 
@@ -73,5 +84,5 @@ def metrics(vout: np.ndarray, axis: np.ndarray, power: np.ndarray) -> dict[str, 
         "swing_v": swing_v(vout),
         "nonlinearity_pct": nonlinearity_pct(vout, axis),
         "min_sensitivity": min_sensitivity(vout, axis),
-        "max_sensor_power_w": np.max(power, axis=-1),
+        "max_sensor_power_w": power.max(axis=-1),
     }

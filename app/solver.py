@@ -14,15 +14,16 @@ import numpy as np
 
 from app import constants as K
 from app import budget, objectives, series
-from app.circuit import Circuit, divider_output, needs_fixed, respond
+from app.circuit import Circuit, divider_output, needs_fixed, respond, swing_peak_ohm
 from app.errors import InputError
 from app.models.base import Sensor
 
 
-# Candidates scored per broadcast in the search: 256 × 401 doubles (0.8 MB) per
-# temporary keeps them out of fresh-page allocation and near the cache; about
-# twice as fast as one 673 × 401 block, measured by bench/core_solve.py.
-RANK_BLOCK = 256
+# Candidate × point elements scored per broadcast in the search: 256 × 401
+# doubles (0.8 MB) per temporary keeps them out of fresh-page allocation and
+# near the cache; about twice as fast as one 673 × 401 block, measured by
+# bench/core_solve.py. Two-point scoring (the swing) takes every candidate at once.
+RANK_BLOCK_ELEMENTS = 256 * K.OBJECTIVE_POINTS
 
 
 @dataclass(frozen=True)
@@ -109,7 +110,7 @@ class Problem:
 
         Same numbers as :meth:`score`: Vout (and power only under a power
         limit), no slopes or Thevenin; the swing needs only the two ends;
-        candidates go in blocks of :data:`RANK_BLOCK` rows.
+        candidates go in blocks of :data:`RANK_BLOCK_ELEMENTS` values.
         """
         limit = self.limits.max_sensor_power_w
         if self.objective in objectives.BUDGET_OBJECTIVES:
@@ -121,8 +122,9 @@ class Problem:
         s, axis, rs = self._scored_points
         fixed = np.asarray(fixed_ohm, float)
         found, feasible = np.empty(fixed.size), np.empty(fixed.size, bool)
-        for start in range(0, fixed.size, RANK_BLOCK):
-            part = slice(start, start + RANK_BLOCK)
+        block = max(1, RANK_BLOCK_ELEMENTS // s.size)
+        for start in range(0, fixed.size, block):
+            part = slice(start, start + block)
             vout, power = divider_output(self.sensor, self.circuit, s, fixed[part, None],
                                          with_power=limit is not None, sensor_ohm=rs)
             found[part] = objectives.score(self.objective, vout, axis)
@@ -165,38 +167,59 @@ def _zoom(problem: Problem, log_centre: float, half: float, best_loss: float) ->
     lo, hi = np.log10(problem.limits.min_ohm), np.log10(problem.limits.max_ohm)
     best_log = log_centre
     for _ in range(K.SOLVER_ZOOM_ROUNDS):
-        trial = np.clip(best_log + half * _ZOOM_OFFSETS, lo, hi)
+        trial = np.minimum(np.maximum(best_log + half * _ZOOM_OFFSETS, lo), hi)
         _, ranked = _ranked(problem, 10.0**trial)
-        i = int(np.argmin(ranked))
+        i = int(ranked.argmin())
         if ranked[i] <= best_loss:
             best_log, best_loss = float(trial[i]), float(ranked[i])
         half *= 2.0 / (K.SOLVER_ZOOM_POINTS - 1)
     return float(10.0**best_log), best_loss
 
 
+def _swing_peak(problem: Problem) -> Optional[float]:
+    """The swing's exact optimum in closed form, clamped to the limits; None where a power limit
+    can rule values out (then the zoom searches the feasible ones)."""
+    if problem.objective != "swing" or problem.limits.max_sensor_power_w is not None:
+        return None
+    rs = problem._scored_points[2]
+    peak = swing_peak_ohm(problem.circuit, float(rs[0]), float(rs[-1]))
+    return min(max(peak, problem.limits.min_ohm), problem.limits.max_ohm)
+
+
 def solve(problem: Problem, series_name: str = "E24") -> Solution:
     """Best series value (every decade between the limits) and the exact optimum.
 
-    The series values and a log grid are scored together in one broadcast;
-    the grid's best point (or the series' own, whichever wins) seeds the
-    zoom, so the exact optimum is never worse than any series value. A
-    series at least as dense as the grid (E48 and finer) is its own seed grid.
+    The swing without a power limit has its exact optimum in closed form
+    (:func:`app.circuit.swing_peak_ohm`), scored beside the series values.
+    Otherwise the series values and a log grid are scored together in one
+    broadcast; the grid's best point (or the series' own, whichever wins)
+    seeds the zoom. Either way the exact optimum is never worse than any
+    series value. A series at least as dense as the grid (E48 and finer) is
+    its own seed grid.
     """
     limits = problem.limits
-    lo, hi = np.log10(limits.min_ohm), np.log10(limits.max_ohm)
-    grid = 10.0 ** np.linspace(lo, hi, max(int(np.ceil((hi - lo) * K.SOLVER_GRID_PER_DECADE)), 8) + 1)
     if series_name == "exact":
         values = np.empty(0)
     else:
         values = series.values_between(series_name, limits.min_ohm, limits.max_ohm)
         if values.size == 0:
             raise InputError("limits", f"no {series_name} value lies between the limits")
-    pool = values if values.size >= grid.size else np.concatenate([values, grid])
+    peak = _swing_peak(problem)
+    if peak is not None:
+        pool = np.append(values, peak)
+    else:
+        lo, hi = np.log10(limits.min_ohm), np.log10(limits.max_ohm)
+        grid = 10.0 ** np.linspace(lo, hi, max(int(np.ceil((hi - lo) * K.SOLVER_GRID_PER_DECADE)), 8) + 1)
+        pool = values if values.size >= grid.size else np.concatenate([values, grid])
     found, ranked = _ranked(problem, pool)
     if not np.isfinite(ranked).any():
         raise _no_feasible()
-    top = int(np.argmin(ranked))
-    exact, exact_loss = _zoom(problem, float(np.log10(pool[top])), 1.0 / K.SOLVER_GRID_PER_DECADE, float(ranked[top]))
+    top = int(ranked.argmin())
+    if peak is not None:  # the peak itself, or a series value that ties it to rounding
+        exact, exact_loss = float(pool[top]), float(ranked[top])
+    else:
+        exact, exact_loss = _zoom(problem, float(np.log10(pool[top])), 1.0 / K.SOLVER_GRID_PER_DECADE,
+                                  float(ranked[top]))
     exact_score = -objectives.DIRECTION[problem.objective] * exact_loss  # loss = −direction · score
 
     if series_name == "exact":

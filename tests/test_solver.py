@@ -295,6 +295,59 @@ def test_unloaded_swing_optimum_is_the_geometric_mean(spec, lo, hi, parallel, se
     assert solve(problem, "exact").exact_ohm == pytest.approx(math.sqrt(r1 * r2), rel=1e-6)
 
 
+
+def swing_from_scratch(spec, lo, hi, sensor_at, load, parallel, fixed: float) -> float:
+    """|Vout(hi) − Vout(lo)| / Vs from the divider's definition (contract topology), math only."""
+    out = []
+    for s in (lo, hi):
+        element = par(r_sensor(spec, s), parallel)
+        top, bottom = (element, fixed) if sensor_at == "top" else (fixed, element)
+        bottom = par(bottom, load)
+        out.append(bottom / (top + bottom))
+    return abs(out[1] - out[0])
+
+
+LOADED_SWING = [
+    # (sensor_at, load, parallel, min_ohm, max_ohm): the load moves the peak; a 3 kΩ load under a
+    # fixed bottom arm sits below sqrt(A1·A2) ≈ 4.8 kΩ, so the best value is the upper limit.
+    ("bottom", 47e3, None, 10.0, 1e6),
+    ("bottom", 5e3, 22e3, 10.0, 1e6),
+    ("top", 100e3, None, 10.0, 1e6),
+    ("top", 20e3, 47e3, 10.0, 1e6),
+    ("top", 3e3, None, 10.0, 1e6),
+    ("bottom", None, None, 20e3, 1e6),  # the peak (≈ 4.8 kΩ) lies below the lower limit
+]
+
+
+@pytest.mark.parametrize(("sensor_at", "load", "parallel", "min_ohm", "max_ohm"), LOADED_SWING)
+def test_swing_optimum_beats_an_independent_dense_scan(sensor_at, load, parallel, min_ohm, max_ohm):
+    # The solver's closed form (app.circuit.swing_peak_ohm) against 4001 log-spaced values scored
+    # from the definition: at least as good as each, and where the scan's best lies.
+    problem = Problem(build_sensor(NTC10K), Circuit(3.3, sensor_at, None, load, parallel), 0.0, 100.0, "swing",
+                      Limits(min_ohm, max_ohm))
+    sol = solve(problem, "exact")
+    args = (NTC10K, 0.0, 100.0, sensor_at, load, parallel)
+    scan = np.geomspace(min_ohm, max_ohm, 4001)
+    swings = [swing_from_scratch(*args, float(r)) for r in scan]
+    best = int(np.argmax(swings))
+    assert swing_from_scratch(*args, sol.exact_ohm) >= swings[best] * (1 - 1e-12)
+    step = (max_ohm / min_ohm) ** (1 / 4000)
+    assert scan[best] / step <= sol.exact_ohm * (1 + 1e-12) and sol.exact_ohm <= scan[best] * step * (1 + 1e-12)
+    assert sol.exact_score == pytest.approx(3.3 * swing_from_scratch(*args, sol.exact_ohm), rel=1e-9)
+
+
+@pytest.mark.parametrize(("sensor_at", "load", "parallel", "min_ohm", "max_ohm"), LOADED_SWING)
+def test_generic_search_finds_the_closed_form_swing_optimum(sensor_at, load, parallel, min_ohm, max_ohm):
+    # A power limit no value reaches (1 kW) sends the swing through the derivative-free zoom
+    # instead of the closed form: both must land on the same resistor.
+    circuit = Circuit(3.3, sensor_at, None, load, parallel)
+    closed = solve(Problem(build_sensor(NTC10K), circuit, 0.0, 100.0, "swing", Limits(min_ohm, max_ohm)), "exact")
+    searched = solve(Problem(build_sensor(NTC10K), circuit, 0.0, 100.0, "swing",
+                             Limits(min_ohm, max_ohm, 1e3)), "exact")
+    assert searched.exact_ohm == pytest.approx(closed.exact_ohm, rel=1e-6)
+    assert searched.exact_score == pytest.approx(closed.exact_score, rel=1e-12)
+
+
 def inflection_ohm(spec: dict, tm_c: float) -> float:
     """R(Tm)·(β − 2Tm)/(β + 2Tm), Tm in kelvin (design.md §3)."""
     tm, beta = tm_c + 273.15, spec["beta_k"]
