@@ -81,20 +81,30 @@ class Problem:
 
     @cached_property
     def _scored_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(stimulus, axis, sensor Ω) that :meth:`rank` scores, computed once per problem.
+        """(stimulus, axis, sensor Ω) that :meth:`rank` scores, taken from the whole grid's.
 
         The swing needs only the two ends unless a power limit needs every point.
         """
-        s = self.grid
+        full = self._full_points
         if self.objective == "swing" and self.limits.max_sensor_power_w is None:
-            s = s[[0, -1]]
-        return s, self.sensor.to_axis(s), self.sensor.resistance(s)
+            return tuple(values[[0, -1]] for values in full)
+        return full
+
+    def _outputs(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(vout, sensor power), each (k, n), on the whole grid for candidates (k,)."""
+        s, _, rs = self._full_points
+        return divider_output(self.sensor, self.circuit, s, np.asarray(fixed_ohm, float)[:, None],
+                              with_power=True, sensor_ohm=rs)
+
+    def metrics(self, fixed_ohm: np.ndarray) -> dict[str, np.ndarray]:
+        """The reported metrics (app.objectives.metrics), each (k,), for candidates (k,)."""
+        vout, power = self._outputs(fixed_ohm)
+        return objectives.metrics(vout, self._full_points[1], power)
 
     def score(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
         """(scores, feasible mask, metrics), each (k,), for candidates (k,)."""
-        s, axis, rs = self._full_points
-        vout, power = divider_output(self.sensor, self.circuit, s, np.asarray(fixed_ohm, float)[:, None],
-                                     with_power=True, sensor_ohm=rs)
+        vout, power = self._outputs(fixed_ohm)
+        axis = self._full_points[1]
         if self.objective in objectives.BUDGET_OBJECTIVES:
             found, feasible = self._budget_rank(fixed_ohm)
         else:
@@ -206,7 +216,7 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
             raise InputError("limits", f"no {series_name} value lies between the limits")
     peak = _swing_peak(problem)
     if peak is not None:
-        pool = np.append(values, peak)
+        pool = np.concatenate((values, (peak,)))
     else:
         lo, hi = np.log10(limits.min_ohm), np.log10(limits.max_ohm)
         grid = 10.0 ** np.linspace(lo, hi, max(int(np.ceil((hi - lo) * K.SOLVER_GRID_PER_DECADE)), 8) + 1)
@@ -235,7 +245,7 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
     order = order[np.isfinite(ranked[order])][: K.SOLVER_CANDIDATES]
     best = int(order[0])
     # The reported metrics need slopes and powers: computed for the winner only.
-    _, _, extra = problem.score(picked[best : best + 1])
+    extra = problem.metrics(picked[best : best + 1])
     return Solution(
         objective=problem.objective,
         series=series_name,

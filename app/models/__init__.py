@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import MISSING, fields
+from functools import lru_cache
 from typing import Any, Mapping
 
 from app.errors import InputError
@@ -19,9 +20,16 @@ SENSOR_CLASSES: dict[str, type[Sensor]] = {
 
 def field_spec(kind: str) -> tuple[list[str], dict[str, Any]]:
     """(required names, {optional name: default}) of a kind's parameters."""
+    required, optional = _field_spec(kind)
+    return list(required), dict(optional)
+
+
+@lru_cache(maxsize=None)
+def _field_spec(kind: str) -> tuple[tuple[str, ...], tuple[tuple[str, Any], ...]]:
+    """Cached: every request builds a sensor, and the dataclass fields never change."""
     cls = SENSOR_CLASSES[kind]
-    required = [f.name for f in fields(cls) if f.default is MISSING]
-    optional = {f.name: f.default for f in fields(cls) if f.default is not MISSING}
+    required = tuple(f.name for f in fields(cls) if f.default is MISSING)
+    optional = tuple((f.name, f.default) for f in fields(cls) if f.default is not MISSING)
     return required, optional
 
 
@@ -30,7 +38,31 @@ def build_sensor(spec: Mapping[str, Any]) -> Sensor:
 
     Resistances (``*_ohm``) may be numbers or strings such as ``4k7``.
     Raises :class:`InputError` naming the field (relative to the object).
+    Models are frozen, so the same object (same values of the same types)
+    gives the one cached model: a page recomputing on every change keeps its sensor.
     """
+    key = _cache_key(spec)
+    return _build(spec) if key is None else _build_cached(key)
+
+
+def _cache_key(spec: Any) -> tuple | None:
+    """Hashable (name, type, value) triples, or None for what the cache cannot hold."""
+    if not isinstance(spec, Mapping) or len(spec) > 16:
+        return None
+    try:
+        key = tuple(sorted((name, type(value).__name__, value) for name, value in spec.items()))
+        hash(key)
+    except TypeError:
+        return None
+    return key
+
+
+@lru_cache(maxsize=256)
+def _build_cached(key: tuple) -> Sensor:
+    return _build({name: value for name, _, value in key})
+
+
+def _build(spec: Mapping[str, Any]) -> Sensor:
     from app.units import parse_resistance  # units imports nothing of models
 
     if not isinstance(spec, Mapping):
@@ -38,7 +70,8 @@ def build_sensor(spec: Mapping[str, Any]) -> Sensor:
     kind = spec.get("kind")
     if not isinstance(kind, str) or kind not in SENSOR_CLASSES:
         raise InputError("kind", f"must be one of {', '.join(SENSOR_CLASSES)}, got {kind!r}")
-    required, optional = field_spec(kind)
+    required, optional_items = _field_spec(kind)
+    optional = dict(optional_items)
     unknown = sorted(set(spec) - {"kind", *required, *optional})
     if unknown:
         raise InputError(unknown[0], f"is not a parameter of a {kind} sensor")
