@@ -6,8 +6,8 @@ resistances (k, 1) against the stimulus grid (n,) give vout (k, n).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
-from functools import cached_property
 from typing import Optional
 
 import numpy as np
@@ -26,6 +26,27 @@ from app.models.base import Sensor
 RANK_BLOCK_ELEMENTS = 256 * K.OBJECTIVE_POINTS
 
 
+def _finite(value) -> bool:
+    return math.isfinite(value) if isinstance(value, (int, float)) else bool(np.isfinite(value))
+
+
+class _once:
+    """A per-instance value computed on first use (a frozen dataclass's cache).
+
+    functools.cached_property without its lock (Python 3.11 takes one per
+    first access): a Problem belongs to one request and one thread.
+    """
+
+    def __init__(self, func):
+        self.func, self.name, self.__doc__ = func, func.__name__, func.__doc__
+
+    def __get__(self, obj, owner=None):
+        if obj is None:
+            return self
+        value = obj.__dict__[self.name] = self.func(obj)
+        return value
+
+
 @dataclass(frozen=True)
 class Limits:
     min_ohm: float = K.DEFAULT_MIN_OHM
@@ -33,12 +54,12 @@ class Limits:
     max_sensor_power_w: Optional[float] = None
 
     def __post_init__(self):
-        if not (np.isfinite(self.min_ohm) and self.min_ohm > 0):
+        if not (_finite(self.min_ohm) and self.min_ohm > 0):
             raise InputError("limits.min_ohm", "must be a positive resistance")
-        if not (np.isfinite(self.max_ohm) and self.max_ohm > self.min_ohm):
+        if not (_finite(self.max_ohm) and self.max_ohm > self.min_ohm):
             raise InputError("limits.max_ohm", "must be finite and above limits.min_ohm")
         p = self.max_sensor_power_w
-        if p is not None and not (np.isfinite(p) and p > 0):
+        if p is not None and not (_finite(p) and p > 0):
             raise InputError("limits.max_sensor_power_w", "must be a positive power in W")
 
 
@@ -69,17 +90,17 @@ class Problem:
         design, limits = self.accuracy.design(self.sensor, self.circuit), self.accuracy.limits(self.sensor, self.circuit)
         return budget.range_worst(design, self.lo, self.hi, limits, np.asarray(fixed_ohm, float))
 
-    @cached_property
+    @_once
     def grid(self) -> np.ndarray:
         return self.sensor.grid(self.lo, self.hi, K.OBJECTIVE_POINTS)
 
-    @cached_property
+    @_once
     def _full_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(stimulus, axis, sensor Ω) on the whole objective grid, computed once per problem."""
         s = self.grid
         return s, self.sensor.to_axis(s), self.sensor.resistance(s)
 
-    @cached_property
+    @_once
     def _scored_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(stimulus, axis, sensor Ω) that :meth:`rank` scores, taken from the whole grid's.
 
@@ -186,6 +207,10 @@ def _zoom(problem: Problem, log_centre: float, half: float, best_loss: float) ->
     return float(10.0**best_log), best_loss
 
 
+# Series values scored on each side of the swing's peak: the candidates plus a margin.
+_SWING_NEIGHBOURS = K.SOLVER_CANDIDATES + 2
+
+
 def _swing_peak(problem: Problem) -> Optional[float]:
     """The swing's exact optimum in closed form, clamped to the limits; None where a power limit
     can rule values out (then the zoom searches the feasible ones)."""
@@ -200,7 +225,7 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
     """Best series value (every decade between the limits) and the exact optimum.
 
     The swing without a power limit has its exact optimum in closed form
-    (:func:`app.circuit.swing_peak_ohm`), scored beside the series values.
+    (:func:`app.circuit.swing_peak_ohm`), scored beside the series values next to it.
     Otherwise the series values and a log grid are scored together in one
     broadcast; the grid's best point (or the series' own, whichever wins)
     seeds the zoom. Either way the exact optimum is never worse than any
@@ -216,6 +241,10 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
             raise InputError("limits", f"no {series_name} value lies between the limits")
     peak = _swing_peak(problem)
     if peak is not None:
+        # The swing is unimodal in the fixed resistor, so its best few series values are
+        # the neighbours of the peak: only those are scored.
+        near = int(np.searchsorted(values, peak))
+        values = values[max(0, near - _SWING_NEIGHBOURS) : near + _SWING_NEIGHBOURS]
         pool = np.concatenate((values, (peak,)))
     else:
         lo, hi = np.log10(limits.min_ohm), np.log10(limits.max_ohm)

@@ -348,6 +348,25 @@ def test_generic_search_finds_the_closed_form_swing_optimum(sensor_at, load, par
     assert searched.exact_score == pytest.approx(closed.exact_score, rel=1e-12)
 
 
+
+@pytest.mark.parametrize(("series_name", "min_ohm", "max_ohm"), [
+    ("E96", 1.0, 1e7),      # the peak (≈ 4.8 kΩ) well inside
+    ("E24", 20e3, 1e6),     # the peak below the lower limit: the best values are the lowest
+    ("E12", 10.0, 1e3),     # the peak above the upper limit: the best values are the highest
+    ("E6", 4.0e3, 5.0e3),   # one value only (4.7 kΩ)
+])
+def test_swing_candidates_are_the_best_of_every_series_value(series_name, min_ohm, max_ohm):
+    # The solver scores only the series values next to the swing's peak; every value between
+    # the limits, scored from the definition, must rank the same best few in the same order.
+    setup = Setup("window", NTC10K, 3.3, "bottom", 0.0, 100.0, "swing", series_name, min_ohm=min_ohm, max_ohm=max_ohm)
+    sol = solve(setup.problem(), series_name)
+    values = series_between(series_name, min_ohm, max_ohm)
+    scored = sorted(((brute_score(setup, v)[0], -i, v) for i, v in enumerate(values)), reverse=True)
+    want = [v for _, _, v in scored[: len(sol.candidates)]]
+    assert len(sol.candidates) == min(5, len(values))
+    np.testing.assert_allclose([ohm for ohm, _ in sol.candidates], want, rtol=1e-12)
+
+
 def inflection_ohm(spec: dict, tm_c: float) -> float:
     """R(Tm)·(β − 2Tm)/(β + 2Tm), Tm in kelvin (design.md §3)."""
     tm, beta = tm_c + 273.15, spec["beta_k"]
