@@ -20,11 +20,16 @@ def swing_v(vout: np.ndarray) -> np.ndarray:
 
 
 # The metrics run once per request for the winner (and per block in the search), where
-# numpy's per-call overhead outweighs the arithmetic: ndarray methods rather than the
-# module functions, axis facts as Python floats, and no errstate context.
+# numpy's per-call overhead outweighs the arithmetic: ufunc reductions called directly,
+# axis facts as Python floats, and no errstate context.
+_max, _min = np.maximum.reduce, np.minimum.reduce
 
-def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
-    """End-point nonlinearity: worst distance from the chord, % of the swing."""
+
+def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray, span: np.ndarray | None = None) -> np.ndarray:
+    """End-point nonlinearity: worst distance from the chord, % of the swing.
+
+    ``span``: :func:`swing_v` of ``vout`` when the caller has it already.
+    """
     a0 = float(axis[0])
     frac = (axis - a0) / (float(axis[-1]) - a0)
     start = vout[..., 0]
@@ -32,8 +37,8 @@ def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
     # the chord is then the larger of max(gap) − start and start − min(gap).
     gap = (vout[..., -1:] - vout[..., :1]) * frac
     np.subtract(vout, gap, out=gap)
-    worst = np.maximum(gap.max(axis=-1) - start, start - gap.min(axis=-1))
-    span = swing_v(vout)
+    worst = np.maximum(_max(gap, axis=-1) - start, start - _min(gap, axis=-1))
+    span = swing_v(vout) if span is None else span
     out = np.full(span.shape, np.inf)
     np.divide(worst, span, out=out, where=span > 0)
     out *= 100.0
@@ -51,12 +56,12 @@ def min_sensitivity(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
     n = vout.shape[-1]
     step = axis[1:] - axis[:-1] if n >= 3 else None
     h0, h1 = (float(step[0]), float(step[-1])) if n >= 3 else (0.0, 0.0)
-    if n < 3 or float(step.max()) - float(step.min()) > 1e-9 * abs(h0):
-        return np.abs(np.gradient(vout, axis, axis=-1)).min(axis=-1)
+    if n < 3 or float(_max(step)) - float(_min(step)) > 1e-9 * abs(h0):
+        return _min(np.abs(np.gradient(vout, axis, axis=-1)), axis=-1)
     # Mean of axis[i+2] − axis[i] over the interior, by telescoping.
     wide = (float(axis[-1]) + float(axis[-2]) - float(axis[1]) - float(axis[0])) / (n - 2)
     central = np.subtract(vout[..., 2:], vout[..., :-2])
-    inner = np.abs(central, out=central).min(axis=-1) / wide
+    inner = _min(np.abs(central, out=central), axis=-1) / wide
     first = np.abs(vout[..., 1] - vout[..., 0]) / h0
     last = np.abs(vout[..., -1] - vout[..., -2]) / h1
     return np.minimum(inner, np.minimum(first, last))
@@ -80,9 +85,10 @@ def loss(objective: str, scores: np.ndarray) -> np.ndarray:
 
 
 def metrics(vout: np.ndarray, axis: np.ndarray, power: np.ndarray) -> dict[str, np.ndarray]:
+    span = swing_v(vout)
     return {
-        "swing_v": swing_v(vout),
-        "nonlinearity_pct": nonlinearity_pct(vout, axis),
+        "swing_v": span,
+        "nonlinearity_pct": nonlinearity_pct(vout, axis, span),
         "min_sensitivity": min_sensitivity(vout, axis),
-        "max_sensor_power_w": power.max(axis=-1),
+        "max_sensor_power_w": _max(power, axis=-1),
     }

@@ -26,6 +26,9 @@ from app.models.base import Sensor
 RANK_BLOCK_ELEMENTS = 256 * K.OBJECTIVE_POINTS
 
 
+_max = np.maximum.reduce
+
+
 def _finite(value) -> bool:
     return math.isfinite(value) if isinstance(value, (int, float)) else bool(np.isfinite(value))
 
@@ -108,7 +111,7 @@ class Problem:
         """
         full = self._full_points
         if self.objective == "swing" and self.limits.max_sensor_power_w is None:
-            return tuple(values[[0, -1]] for values in full)
+            return tuple(values[:: values.size - 1] for values in full)  # views of both ends
         return full
 
     def _outputs(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -152,16 +155,19 @@ class Problem:
             return found, feasible
         s, axis, rs = self._scored_points
         fixed = np.asarray(fixed_ohm, float)
-        found, feasible = np.empty(fixed.size), np.empty(fixed.size, bool)
         block = max(1, RANK_BLOCK_ELEMENTS // s.size)
-        for start in range(0, fixed.size, block):
-            part = slice(start, start + block)
-            vout, power = divider_output(self.sensor, self.circuit, s, fixed[part, None],
-                                         with_power=limit is not None, sensor_ohm=rs)
-            found[part] = objectives.score(self.objective, vout, axis)
-            feasible[part] = np.isfinite(found[part])
-            if limit is not None:
-                feasible[part] &= np.max(power, axis=-1) <= limit
+        parts = [self._rank_block(s, axis, rs, fixed[start : start + block, None], limit)
+                 for start in range(0, max(fixed.size, 1), block)]
+        if len(parts) == 1:
+            return parts[0]
+        return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
+
+    def _rank_block(self, s, axis, rs, fixed: np.ndarray, limit: Optional[float]) -> tuple[np.ndarray, np.ndarray]:
+        vout, power = divider_output(self.sensor, self.circuit, s, fixed, with_power=limit is not None, sensor_ohm=rs)
+        found = objectives.score(self.objective, vout, axis)
+        feasible = np.isfinite(found)
+        if limit is not None:
+            feasible &= _max(power, axis=-1) <= limit
         return found, feasible
 
 
@@ -283,5 +289,5 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
         score=float(found[best]),
         exact_score=float(exact_score),
         metrics={name: float(v[0]) for name, v in extra.items()},
-        candidates=[(float(picked[i]), float(found[i])) for i in order],
+        candidates=list(zip(picked[order].tolist(), found[order].tolist())),
     )
