@@ -92,8 +92,9 @@ def _sensor_power(sensor: Sensor, circuit: Circuit, rs, rt, rb, total):
     if not needs_fixed(sensor):
         return i_top**2 * rt + i_bottom**2 * rb
     i_element = i_top if circuit.sensor_at == "top" else i_bottom
-    share = 1.0 if circuit.parallel_ohm is None else circuit.parallel_ohm / (rs + circuit.parallel_ohm)
-    return (i_element * share) ** 2 * rs
+    if circuit.parallel_ohm is not None:
+        i_element = i_element * (circuit.parallel_ohm / (rs + circuit.parallel_ohm))
+    return i_element**2 * rs
 
 
 def _loaded(circuit: Circuit, rb):

@@ -32,12 +32,11 @@ def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray, span: np.ndarray | None
     """
     a0 = float(axis[0])
     frac = (axis - a0) / (float(axis[-1]) - a0)
-    start = vout[..., 0]
-    # gap = vout − (chord − start), one (k, n) buffer; the worst distance from
-    # the chord is then the larger of max(gap) − start and start − min(gap).
-    gap = (vout[..., -1:] - vout[..., :1]) * frac
-    np.subtract(vout, gap, out=gap)
-    worst = np.maximum(_max(gap, axis=-1) - start, start - _min(gap, axis=-1))
+    # vout − chord in one (k, n) buffer, then its largest magnitude.
+    dev = (vout[..., :1] - vout[..., -1:]) * frac
+    dev += vout
+    dev -= vout[..., :1]
+    worst = _max(np.abs(dev, out=dev), axis=-1)
     span = swing_v(vout) if span is None else span
     out = np.full(span.shape, np.inf)
     np.divide(worst, span, out=out, where=span > 0)
@@ -45,25 +44,30 @@ def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray, span: np.ndarray | None
     return out
 
 
-def min_sensitivity(vout: np.ndarray, axis: np.ndarray) -> np.ndarray:
+def min_sensitivity(vout: np.ndarray, axis: np.ndarray, even: bool = False) -> np.ndarray:
     """Smallest |dVout/ds| on the grid, as numpy.gradient with default edges gives it.
 
-    The objective's axis is evenly spaced, where numpy.gradient's interior
-    formula is the central difference (v[i+1] − v[i−1]) / 2h; using it
-    directly needs three passes over the (k, n) array instead of eight.
-    Uneven axes (not produced by Sensor.grid) go through numpy.gradient.
+    On an evenly spaced axis numpy.gradient's interior formula is the central
+    difference (v[i+1] − v[i−1]) / 2h, here the sum of two neighbouring
+    steps: one pass of steps serves the interior and both edges. ``even``:
+    the caller knows the axis is evenly spaced (Sensor.grid's is), else it
+    is checked; uneven axes go through numpy.gradient.
     """
     n = vout.shape[-1]
-    step = axis[1:] - axis[:-1] if n >= 3 else None
-    h0, h1 = (float(step[0]), float(step[-1])) if n >= 3 else (0.0, 0.0)
-    if n < 3 or float(_max(step)) - float(_min(step)) > 1e-9 * abs(h0):
+    if n < 3:
         return _min(np.abs(np.gradient(vout, axis, axis=-1)), axis=-1)
+    h0, h1 = float(axis[1]) - float(axis[0]), float(axis[-1]) - float(axis[-2])
+    if not even:
+        step = axis[1:] - axis[:-1]
+        if float(_max(step)) - float(_min(step)) > 1e-9 * abs(h0):
+            return _min(np.abs(np.gradient(vout, axis, axis=-1)), axis=-1)
     # Mean of axis[i+2] − axis[i] over the interior, by telescoping.
     wide = (float(axis[-1]) + float(axis[-2]) - float(axis[1]) - float(axis[0])) / (n - 2)
-    central = np.subtract(vout[..., 2:], vout[..., :-2])
+    steps = vout[..., 1:] - vout[..., :-1]
+    central = steps[..., 1:] + steps[..., :-1]
     inner = _min(np.abs(central, out=central), axis=-1) / wide
-    first = np.abs(vout[..., 1] - vout[..., 0]) / h0
-    last = np.abs(vout[..., -1] - vout[..., -2]) / h1
+    first = np.abs(steps[..., 0]) / h0
+    last = np.abs(steps[..., -1]) / h1
     return np.minimum(inner, np.minimum(first, last))
 
 
@@ -84,11 +88,12 @@ def loss(objective: str, scores: np.ndarray) -> np.ndarray:
     return -DIRECTION[objective] * scores
 
 
-def metrics(vout: np.ndarray, axis: np.ndarray, power: np.ndarray) -> dict[str, np.ndarray]:
+def metrics(vout: np.ndarray, axis: np.ndarray, power: np.ndarray, even: bool = False) -> dict[str, np.ndarray]:
+    """``even``: the axis is known to be evenly spaced (see :func:`min_sensitivity`)."""
     span = swing_v(vout)
     return {
         "swing_v": span,
         "nonlinearity_pct": nonlinearity_pct(vout, axis, span),
-        "min_sensitivity": min_sensitivity(vout, axis),
+        "min_sensitivity": min_sensitivity(vout, axis, even),
         "max_sensor_power_w": _max(power, axis=-1),
     }

@@ -123,7 +123,7 @@ class Problem:
     def metrics(self, fixed_ohm: np.ndarray) -> dict[str, np.ndarray]:
         """The reported metrics (app.objectives.metrics), each (k,), for candidates (k,)."""
         vout, power = self._outputs(fixed_ohm)
-        return objectives.metrics(vout, self._full_points[1], power)
+        return objectives.metrics(vout, self._full_points[1], power, even=True)  # Sensor.grid's axis
 
     def score(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
         """(scores, feasible mask, metrics), each (k,), for candidates (k,)."""
@@ -134,7 +134,7 @@ class Problem:
         else:
             found = objectives.score(self.objective, vout, axis)
             feasible = np.isfinite(found)
-        extra = objectives.metrics(vout, axis, power)
+        extra = objectives.metrics(vout, axis, power, even=True)
         if self.limits.max_sensor_power_w is not None:
             feasible &= extra["max_sensor_power_w"] <= self.limits.max_sensor_power_w
         return found, feasible, extra
