@@ -38,7 +38,8 @@ def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray, span: np.ndarray | None
     dev -= vout[..., :1]
     worst = _max(np.abs(dev, out=dev), axis=-1)
     span = swing_v(vout) if span is None else span
-    out = np.full(span.shape, np.inf)
+    out = np.empty(span.shape)
+    out.fill(np.inf)
     np.divide(worst, span, out=out, where=span > 0)
     out *= 100.0
     return out

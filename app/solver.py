@@ -249,7 +249,7 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
     if peak is not None:
         # The swing is unimodal in the fixed resistor, so its best few series values are
         # the neighbours of the peak: only those are scored.
-        near = int(np.searchsorted(values, peak))
+        near = int(values.searchsorted(peak))
         values = values[max(0, near - _SWING_NEIGHBOURS) : near + _SWING_NEIGHBOURS]
         pool = np.concatenate((values, (peak,)))
     else:
@@ -257,9 +257,9 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
         grid = 10.0 ** np.linspace(lo, hi, max(int(np.ceil((hi - lo) * K.SOLVER_GRID_PER_DECADE)), 8) + 1)
         pool = values if values.size >= grid.size else np.concatenate([values, grid])
     found, ranked = _ranked(problem, pool)
-    if not np.isfinite(ranked).any():
-        raise _no_feasible()
     top = int(ranked.argmin())
+    if ranked[top] == np.inf:  # infeasible values rank as inf
+        raise _no_feasible()
     if peak is not None:  # the peak itself, or a series value that ties it to rounding
         exact, exact_loss = float(pool[top]), float(ranked[top])
     else:
@@ -274,10 +274,10 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
         picked = values
         n = values.size
         found, ranked = found[:n], ranked[:n]
-        if not np.isfinite(ranked).any():
-            raise _no_feasible()
-    order = np.argsort(ranked, kind="stable")
-    order = order[np.isfinite(ranked[order])][: K.SOLVER_CANDIDATES]
+    order = ranked.argsort(kind="stable")[: K.SOLVER_CANDIDATES]
+    order = order[ranked[order] < np.inf]  # sorted: the infeasible come last
+    if order.size == 0:
+        raise _no_feasible()
     best = int(order[0])
     # The reported metrics need slopes and powers: computed for the winner only.
     extra = problem.metrics(picked[best : best + 1])

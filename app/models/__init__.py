@@ -47,7 +47,7 @@ def build_sensor(spec: Mapping[str, Any]) -> Sensor:
 
 def _cache_key(spec: Any) -> tuple | None:
     """Hashable (name, type, value) triples, or None for what the cache cannot hold."""
-    if not isinstance(spec, Mapping) or len(spec) > 16:
+    if not isinstance(spec, (dict, Mapping)) or len(spec) > 16:  # dict first: no ABC check
         return None
     try:
         key = tuple(sorted((name, type(value).__name__, value) for name, value in spec.items()))
