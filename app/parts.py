@@ -70,11 +70,18 @@ class Part:
 
 
 def _number(where: str, value: Any, low: float, high: float) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-        raise InputError(where, f"must be a number, got {value!r}")
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not _finite(value):
+        raise InputError(where, f"must be a finite number, got {str(value)[:40]}")
     if not low <= value <= high:
         raise InputError(where, f"must lie within {low:g} .. {high:g}, got {value:g}")
     return float(value)
+
+
+def _finite(value: int | float) -> bool:
+    try:
+        return math.isfinite(value)
+    except OverflowError:  # an integer beyond any float
+        return False
 
 
 def _text(where: str, value: Any, limit: int) -> str:

@@ -69,18 +69,28 @@ def _check_value(value: float, field: str, shown: str) -> float:
     return value
 
 
+def _check_number(value: Real, field: str) -> float:
+    try:
+        number = float(value)
+    except OverflowError:  # an integer beyond any float (JSON allows 400 digits)
+        raise InputError(field, "resistance must be a finite number of ohms, got an integer too large for a float") from None
+    return _check_value(number, field, repr(number))
+
+
 def parse_resistance(value: object, field: str = "value") -> float:
     """Resistance in Ω from a number (Ω) or a string (see module docstring).
 
     Raises :class:`InputError` on ``field`` for anything else: zero, negatives,
     NaN, inf, empty text, booleans, lists, ``None``, stray or repeated letters.
     """
+    if type(value) is float or type(value) is int:  # the common case, before the ABC checks
+        return _check_number(value, field)
     if isinstance(value, (bool, np.bool_)):
         raise InputError(field, f"expected a resistance in ohms, got a boolean ({value})")
     if isinstance(value, str):
         return _read_text(value, field)
     if isinstance(value, Real):
-        return _check_value(float(value), field, repr(float(value)))
+        return _check_number(value, field)
     kind = type(value).__name__
     raise InputError(field, f"expected a number of ohms or a string such as '4k7', got {kind}")
 

@@ -148,3 +148,49 @@ def test_load_script_runs_and_counts(monkeypatch):
     lines = load_lan.run()
     assert any(line.startswith("all") for line in lines)
     assert "(0 errors" in lines[-1], lines
+
+
+# Valid bodies of the JSON endpoints that take numbers; each numeric leaf in turn becomes an
+# integer of 401 digits (JSON has no size limit; no float holds it).
+HUGE = "1" + "0" * 400
+NUMERIC_BODIES = {
+    "/api/evaluate": {"sensor": NTC, "circuit": {"supply_v": 3.3, "fixed_ohm": 10_000, "load_ohm": 1e6,
+                                                 "parallel_ohm": 1e5}, "stimulus": [0, 25]},
+    "/api/solve": {**SOLVE, "limits": {"min_ohm": 10, "max_ohm": 1e6, "max_sensor_power_w": 0.01}},
+    "/api/fit": {"kind": "ntc_beta", "points": [{"stimulus": 25, "ohm": 10_000}, {"stimulus": 85, "ohm": 1_100}]},
+    "/api/parts": {"name": "Huge probe", "sensor": {"kind": "ntc_beta", "r_nominal_ohm": 4700, "beta_k": 3977},
+                   "dissipation_w_per_k": 0.002, "tolerances": {"sensor_pct": 1}},
+    "/api/view/compare": {"sensors": [NTC, {"kind": "rtd", "r0_ohm": 100}], "circuit": {"supply_v": 3.3},
+                          "range": {"min": 0, "max": 100}},
+}
+
+
+def _numeric_paths(node, path=()):
+    if isinstance(node, dict):
+        for key, value in node.items():
+            yield from _numeric_paths(value, path + (key,))
+    elif isinstance(node, list):
+        for i, value in enumerate(node):
+            yield from _numeric_paths(value, path + (i,))
+    elif isinstance(node, (int, float)) and not isinstance(node, bool):
+        yield path
+
+
+@pytest.mark.parametrize("url", NUMERIC_BODIES)
+def test_integers_beyond_any_float_get_422_in_every_numeric_field(app_factory, url):
+    import json
+
+    base = NUMERIC_BODIES[url]
+    with TestClient(app_factory(saves_per_minute=10_000), raise_server_exceptions=False) as client:
+        assert client.post(url, json=base).status_code in (200, 201)
+        paths = list(_numeric_paths(base))
+        assert len(paths) >= 3
+        for path in paths:
+            body = json.loads(json.dumps(base))
+            node = body
+            for key in path[:-1]:
+                node = node[key]
+            node[path[-1]] = "@huge@"
+            raw = json.dumps(body).replace('"@huge@"', HUGE)
+            r = client.post(url, content=raw, headers={"content-type": "application/json"})
+            assert r.status_code == 422, (path, r.status_code, r.text[:200])

@@ -32,6 +32,9 @@ MALFORMED = {
     "missing-gamma.toml": "sensor.gamma",
     "pot-bad-taper.toml": "sensor.taper",
     "kind-as-array.toml": "sensor.kind",
+    # TOML integers have no size limit in tomllib; one beyond any float once stopped the load.
+    "huge-resistance.toml": "sensor.r_nominal_ohm",
+    "huge-dissipation.toml": "dissipation_w_per_k",
 }
 SYNTAX_ERROR = "not-toml.toml"  # no field to name: the problem names the file and TOML's own line
 

@@ -58,7 +58,10 @@ def check_resistance(field: str, value: Any) -> float:
 def check_finite(field: str, value: Any) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(field, f"must be a number, got {value!r}")
-    value = float(value)
+    try:
+        value = float(value)
+    except OverflowError:  # an integer beyond any float
+        raise InputError(field, "must be finite, got an integer too large for a float") from None
     if not math.isfinite(value):
         raise InputError(field, f"must be finite, got {value}")
     return value
