@@ -61,7 +61,11 @@ def _read_text(text: str, field: str) -> float:
     return _check_value(float(number), field, shown)
 
 
-def _check_value(value: float, field: str, shown: str) -> float:
+def _check_value(value: float, field: str, shown: str | None = None) -> float:
+    """``shown``: the text the value came from (its repr when None, made only for a message)."""
+    if value > 0 and value != math.inf:  # the common case; NaN fails the first test
+        return value
+    shown = repr(value) if shown is None else shown
     if not math.isfinite(value):
         raise InputError(field, f"resistance must be a finite number of ohms, got {shown}")
     if value <= 0:
@@ -74,7 +78,7 @@ def _check_number(value: Real, field: str) -> float:
         number = float(value)
     except OverflowError:  # an integer beyond any float (JSON allows 400 digits)
         raise InputError(field, "resistance must be a finite number of ohms, got an integer too large for a float") from None
-    return _check_value(number, field, repr(number))
+    return _check_value(number, field)
 
 
 def parse_resistance(value: object, field: str = "value") -> float:
