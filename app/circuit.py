@@ -94,7 +94,12 @@ def _sensor_power(sensor: Sensor, circuit: Circuit, rs, rt, rb, total):
     i_element = i_top if circuit.sensor_at == "top" else i_bottom
     if circuit.parallel_ohm is not None:
         i_element = i_element * (circuit.parallel_ohm / (rs + circuit.parallel_ohm))
-    return i_element**2 * rs
+    if not isinstance(i_element, np.ndarray):
+        return i_element**2 * rs
+    # i_element is a fresh array of this call, in the full shape: it becomes the power.
+    np.square(i_element, out=i_element)
+    i_element *= rs
+    return i_element
 
 
 def _loaded(circuit: Circuit, rb):

@@ -31,7 +31,8 @@ def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray, span: np.ndarray | None
     ``span``: :func:`swing_v` of ``vout`` when the caller has it already.
     """
     a0 = float(axis[0])
-    frac = (axis - a0) / (float(axis[-1]) - a0)
+    frac = axis - a0
+    frac /= float(axis[-1]) - a0
     # vout − chord in one (k, n) buffer, then its largest magnitude.
     dev = (vout[..., :1] - vout[..., -1:]) * frac
     dev += vout

@@ -10,6 +10,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
+from pydantic import BaseModel
 
 from app import objectives, schemas, series
 from app.accuracy_inputs import accuracy_of
@@ -26,7 +27,8 @@ def sensor_of(spec: Any, library: Library, field: str = "sensor") -> Sensor:
     """A sensor model from a request's sensor object or part reference."""
     if isinstance(spec, schemas.PartRef):
         return build_sensor(library.get(spec.part).sensor)
-    data = spec.model_dump(exclude_none=True) if hasattr(spec, "model_dump") else spec
+    # The sensor models are flat, so their fields are the dump (without the serializer's cost).
+    data = {k: v for k, v in vars(spec).items() if v is not None} if isinstance(spec, BaseModel) else spec
     try:
         return build_sensor(data)
     except InputError as err:
@@ -35,7 +37,7 @@ def sensor_of(spec: Any, library: Library, field: str = "sensor") -> Sensor:
 
 def circuit_of(spec: schemas.CircuitIn, field: str = "circuit") -> Circuit:
     try:
-        return Circuit(**spec.model_dump())
+        return Circuit(**vars(spec))  # a flat model: its fields are the dump
     except InputError as err:
         raise err.within(field) from None
 
@@ -87,7 +89,7 @@ def range_warnings(spec: Any, lo: float, hi: float, library: Library) -> list[st
 def problem_of(req: Any, library: Library) -> Problem:
     sensor = sensor_of(req.sensor, library)
     circuit = circuit_of(req.circuit)
-    limits = Limits(**req.limits.model_dump()) if getattr(req, "limits", None) else Limits()
+    limits = Limits(**vars(req.limits)) if getattr(req, "limits", None) else Limits()
     accuracy = accuracy_of(req) if req.objective in objectives.BUDGET_OBJECTIVES else None
     return Problem(sensor, circuit, req.range.min, req.range.max, req.objective, limits, accuracy)
 

@@ -47,7 +47,15 @@ class BetaNTC(_Thermistor):
 
     def resistance(self, stimulus):
         t = as_array(stimulus) + KELVIN_OFFSET
-        return self.r_nominal_ohm * np.exp(self.beta_k * (1.0 / t - 1.0 / self._tn))
+        if not isinstance(t, np.ndarray):  # a single stimulus
+            return self.r_nominal_ohm * np.exp(self.beta_k * (1.0 / t - 1.0 / self._tn))
+        # The same operations in one buffer: a solve evaluates this on every request.
+        np.divide(1.0, t, out=t)
+        t -= 1.0 / self._tn
+        t *= self.beta_k
+        np.exp(t, out=t)
+        t *= self.r_nominal_ohm
+        return t
 
     def stimulus_of(self, ohm):
         r = as_array(ohm)
