@@ -39,6 +39,8 @@ def nonlinearity_pct(vout: np.ndarray, axis: np.ndarray, span: np.ndarray | None
     dev -= vout[..., :1]
     worst = _max(np.abs(dev, out=dev), axis=-1)
     span = swing_v(vout) if span is None else span
+    if span.ndim == 0:  # one curve (numpy scalars): plain arithmetic, same numbers
+        return worst / span * 100.0 if span > 0 else np.float64(np.inf)
     out = np.empty(span.shape)
     out.fill(np.inf)
     np.divide(worst, span, out=out, where=span > 0)

@@ -120,10 +120,16 @@ class Problem:
         return divider_output(self.sensor, self.circuit, s, np.asarray(fixed_ohm, float)[:, None],
                               with_power=True, sensor_ohm=rs)
 
-    def metrics(self, fixed_ohm: np.ndarray) -> dict[str, np.ndarray]:
-        """The reported metrics (app.objectives.metrics), each (k,), for candidates (k,)."""
-        vout, power = self._outputs(fixed_ohm)
-        return objectives.metrics(vout, self._full_points[1], power, even=True)  # Sensor.grid's axis
+    def metrics(self, fixed_ohm: float) -> dict[str, float]:
+        """The reported metrics (app.objectives.metrics) of one fixed resistor.
+
+        One value, so one-dimensional arrays and scalar results: the same
+        numbers as a row of :meth:`score`'s, without the (k, n) machinery.
+        """
+        s, axis, rs = self._full_points
+        vout, power = divider_output(self.sensor, self.circuit, s, float(fixed_ohm), with_power=True, sensor_ohm=rs)
+        found = objectives.metrics(vout, axis, power, even=True)  # Sensor.grid's axis is even
+        return {name: float(value) for name, value in found.items()}
 
     def score(self, fixed_ohm: np.ndarray) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
         """(scores, feasible mask, metrics), each (k,), for candidates (k,)."""
@@ -280,7 +286,7 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
         raise _no_feasible()
     best = int(order[0])
     # The reported metrics need slopes and powers: computed for the winner only.
-    extra = problem.metrics(picked[best : best + 1])
+    metrics = problem.metrics(picked[best])
     return Solution(
         objective=problem.objective,
         series=series_name,
@@ -288,6 +294,6 @@ def solve(problem: Problem, series_name: str = "E24") -> Solution:
         exact_ohm=exact,
         score=float(found[best]),
         exact_score=float(exact_score),
-        metrics={name: float(v[0]) for name, v in extra.items()},
+        metrics=metrics,
         candidates=list(zip(picked[order].tolist(), found[order].tolist())),
     )

@@ -51,6 +51,16 @@ def test_a_flat_output_has_no_finite_nonlinearity():
     flat = np.full((2, 11), 1.5)
     assert np.all(np.isinf(objectives.nonlinearity_pct(flat, axis)))
     assert np.all(objectives.min_sensitivity(flat, axis) == 0.0)
+    assert objectives.nonlinearity_pct(flat[0], axis) == np.inf  # one curve, 1-D
+
+
+def test_one_curve_gives_the_numbers_of_its_row():
+    axis = np.linspace(0.0, 100.0, 61)
+    vout, power = curves(), curves(seed=9) ** 2
+    rows = objectives.metrics(vout, axis, power, even=True)
+    for i in range(vout.shape[0]):
+        one = objectives.metrics(vout[i], axis, power[i], even=True)
+        assert {k: float(v) for k, v in one.items()} == {k: float(v[i]) for k, v in rows.items()}
 
 
 def test_metrics_share_one_swing():

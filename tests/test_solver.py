@@ -259,6 +259,16 @@ def test_fast_ranking_agrees_with_full_scoring(setup):
     np.testing.assert_array_equal(fast_feasible, feasible)
 
 
+@pytest.mark.parametrize("setup", SETUPS, ids=[s.name for s in SETUPS])
+def test_one_value_metrics_are_a_row_of_full_scoring(setup):
+    # solve() reports the winner's metrics through Problem.metrics (1-D arrays, one value).
+    problem = setup.problem()
+    fixed = np.geomspace(setup.min_ohm, setup.max_ohm, 5)
+    _, _, extra = problem.score(fixed)
+    for i, value in enumerate(fixed):
+        assert problem.metrics(value) == {name: float(v[i]) for name, v in extra.items()}
+
+
 def test_exact_series_returns_the_exact_optimum():
     setup = SETUPS[1]
     sol = solve(setup.problem(), "exact")
