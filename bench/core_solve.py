@@ -132,8 +132,10 @@ def run() -> list[str]:
         " refinement points, the winner); bare numpy scores the series values only.",
         "loop: the model (math.exp) evaluated at each candidate × point, as scalar code is usually written;"
         " hoisted: the 401 resistances computed once, as the numpy contenders do.",
-        "The loops score all 401 points for every objective; solve needs only the two ends for a swing"
-        " without a power limit, and also refines the exact optimum and reports the winner's metrics.",
+        "The loops score all 401 points for every objective. For the swing without a power limit solve"
+        " does less work than they do, not only faster work: the exact optimum is in closed form and only"
+        " the series values beside it are scored (two points each), so its swing ratios measure the"
+        " method as well as numpy; linearity and sensitivity score every value and refine by the zoom.",
         "pick: solve's E96 value equals the bare numpy pick and is at least as good as the loop's best.",
     ]
     return lines
