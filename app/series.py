@@ -103,7 +103,7 @@ def values_between(name: str, lo_ohm: float, hi_ohm: float) -> np.ndarray:
     and ``max_ohm``; the range may be empty of series values (empty array).
     """
     _check_name(name)
-    lo, hi = (_as_ohms(v, f) for v, f in ((lo_ohm, "min_ohm"), (hi_ohm, "max_ohm")))
+    lo, hi = _as_ohms(lo_ohm, "min_ohm"), _as_ohms(hi_ohm, "max_ohm")
     if lo.ndim or hi.ndim:
         raise InputError("min_ohm" if lo.ndim else "max_ohm", "expected a single resistance")
     lo, hi = float(lo), float(hi)

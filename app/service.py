@@ -7,6 +7,7 @@ field path of the request; unknown parts as :class:`PartNotFound`.
 
 from __future__ import annotations
 
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -27,12 +28,24 @@ def sensor_of(spec: Any, library: Library, field: str = "sensor") -> Sensor:
     """A sensor model from a request's sensor object or part reference."""
     if isinstance(spec, schemas.PartRef):
         return build_sensor(library.get(spec.part).sensor)
-    # The sensor models are flat, so their fields are the dump (without the serializer's cost).
-    data = {k: v for k, v in vars(spec).items() if v is not None} if isinstance(spec, BaseModel) else spec
     try:
-        return build_sensor(data)
+        if isinstance(spec, BaseModel):
+            fields = tuple(vars(spec).items())
+            try:
+                return _sensor_of_model(type(spec), fields)
+            except TypeError:  # an unhashable field: the same build, uncached
+                return _sensor_of_model.__wrapped__(type(spec), fields)
+        return build_sensor(spec)
     except InputError as err:
         raise err.within(field) from None
+
+
+@lru_cache(maxsize=256)
+def _sensor_of_model(model: type, fields: tuple) -> Sensor:
+    """Cached by the validated model's type and fields (canonical types, so equal means same):
+    the page recomputes on every change and keeps its sensor. The sensor models are flat, so
+    their fields are the dump, less the unset (None) ones."""
+    return build_sensor({name: value for name, value in fields if value is not None})
 
 
 def circuit_of(spec: schemas.CircuitIn, field: str = "circuit") -> Circuit:
