@@ -23,7 +23,6 @@ name and field; the good ones still load.
 from __future__ import annotations
 
 import itertools
-import math
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -32,6 +31,7 @@ from typing import Any, Optional
 
 from app.errors import InputError
 from app.models import build_sensor
+from app.models.base import is_finite
 
 PARTS_DIR = Path(__file__).resolve().parent.parent / "sample_parts"
 ID_PATTERN = re.compile(r"^[a-z0-9][a-z0-9_-]{0,63}$")
@@ -70,18 +70,11 @@ class Part:
 
 
 def _number(where: str, value: Any, low: float, high: float) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not _finite(value):
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not is_finite(value):
         raise InputError(where, f"must be a finite number, got {str(value)[:40]}")
     if not low <= value <= high:
         raise InputError(where, f"must lie within {low:g} .. {high:g}, got {value:g}")
     return float(value)
-
-
-def _finite(value: int | float) -> bool:
-    try:
-        return math.isfinite(value)
-    except OverflowError:  # an integer beyond any float
-        return False
 
 
 def _text(where: str, value: Any, limit: int) -> str:

@@ -6,7 +6,6 @@ resistances (k, 1) against the stimulus grid (n,) give vout (k, n).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Optional
 
@@ -16,7 +15,7 @@ from app import constants as K
 from app import budget, objectives, series
 from app.circuit import Circuit, divider_output, needs_fixed, respond, swing_peak_ohm
 from app.errors import InputError
-from app.models.base import Sensor
+from app.models.base import Sensor, is_finite
 
 
 # Candidate × point elements scored per broadcast in the search: 256 × 401
@@ -27,10 +26,6 @@ RANK_BLOCK_ELEMENTS = 256 * K.OBJECTIVE_POINTS
 
 
 _max = np.maximum.reduce
-
-
-def _finite(value) -> bool:
-    return math.isfinite(value) if isinstance(value, (int, float)) else bool(np.isfinite(value))
 
 
 class _once:
@@ -57,12 +52,12 @@ class Limits:
     max_sensor_power_w: Optional[float] = None
 
     def __post_init__(self):
-        if not (_finite(self.min_ohm) and self.min_ohm > 0):
+        if not (is_finite(self.min_ohm) and self.min_ohm > 0):
             raise InputError("limits.min_ohm", "must be a positive resistance")
-        if not (_finite(self.max_ohm) and self.max_ohm > self.min_ohm):
+        if not (is_finite(self.max_ohm) and self.max_ohm > self.min_ohm):
             raise InputError("limits.max_ohm", "must be finite and above limits.min_ohm")
         p = self.max_sensor_power_w
-        if p is not None and not (_finite(p) and p > 0):
+        if p is not None and not (is_finite(p) and p > 0):
             raise InputError("limits.max_sensor_power_w", "must be a positive power in W")
 
 

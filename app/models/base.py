@@ -37,6 +37,16 @@ def evenly_spaced(start: float, stop: float, points: int) -> np.ndarray:
     return out
 
 
+def is_finite(value: Any) -> bool:
+    """A finite number: int, float or numpy scalar (an int too large for a float is not)."""
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
+    except TypeError:
+        return bool(np.isfinite(value))
+
+
 def check_positive(field: str, value: Any) -> float:
     value = check_finite(field, value)
     if value <= 0:
