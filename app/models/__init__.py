@@ -38,31 +38,7 @@ def build_sensor(spec: Mapping[str, Any]) -> Sensor:
 
     Resistances (``*_ohm``) may be numbers or strings such as ``4k7``.
     Raises :class:`InputError` naming the field (relative to the object).
-    Models are frozen, so the same object (same values of the same types)
-    gives the one cached model: a page recomputing on every change keeps its sensor.
     """
-    key = _cache_key(spec)
-    return _build(spec) if key is None else _build_cached(key)
-
-
-def _cache_key(spec: Any) -> tuple | None:
-    """Hashable (name, type, value) triples, or None for what the cache cannot hold."""
-    if not isinstance(spec, (dict, Mapping)) or len(spec) > 16:  # dict first: no ABC check
-        return None
-    try:
-        key = tuple(sorted((name, type(value).__name__, value) for name, value in spec.items()))
-        hash(key)
-    except TypeError:
-        return None
-    return key
-
-
-@lru_cache(maxsize=256)
-def _build_cached(key: tuple) -> Sensor:
-    return _build({name: value for name, _, value in key})
-
-
-def _build(spec: Mapping[str, Any]) -> Sensor:
     from app.units import parse_resistance  # units imports nothing of models
 
     if not isinstance(spec, Mapping):
